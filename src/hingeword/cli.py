@@ -1,0 +1,264 @@
+"""Command-line interface (typer). Each command parses options, calls one library
+function and prints a short summary: data to stdout, progress and messages to stderr.
+"""
+
+from __future__ import annotations
+
+import logging
+import sys
+from pathlib import Path
+from typing import Optional
+
+import typer
+from rich.console import Console
+
+from . import __version__
+from .errors import HingewordError
+
+app = typer.Typer(
+    help="Find the preposition patterns a class over-uses compared with native writing.",
+    no_args_is_help=True,
+    pretty_exceptions_show_locals=False,  # essays are private: never dump locals
+    add_completion=False,
+)
+reference_app = typer.Typer(help="Build, list and describe native references.", no_args_is_help=True)
+app.add_typer(reference_app, name="reference")
+
+out = Console(highlight=False, soft_wrap=True)
+err = Console(stderr=True, highlight=False)
+
+DEFAULT_WORKSPACE = Path("hingeword-workspace")
+WorkspaceOpt = typer.Option(DEFAULT_WORKSPACE, "--workspace", "-w", help="Workspace folder (database, parse cache, references).")
+ClassOpt = typer.Option(..., "--class", help="Class name, e.g. 'evening-b2'.")
+TermOpt = typer.Option(..., "--term", help="Term name, e.g. '2026-spring'.")
+
+
+def _fail(msg: str, code: int = 1):
+    err.print(f"Error: {msg}", markup=False)
+    raise typer.Exit(code)
+
+
+def _setup_logging(verbose: bool) -> None:
+    logging.basicConfig(level=logging.DEBUG if verbose else logging.WARNING, format="%(levelname)s: %(message)s")
+
+
+@app.callback()
+def _main(
+    verbose: bool = typer.Option(False, "--verbose", "-v", help="Show debug messages."),
+    version: bool = typer.Option(False, "--version", help="Print the version and exit."),
+):
+    _setup_logging(verbose)
+    if version:
+        out.print(f"hingeword {__version__}")
+        raise typer.Exit(0)
+
+
+@app.command()
+def scan(
+    essays: Path = typer.Argument(..., help="Folder of essays (.txt, .docx, .odt, or one .csv with writer,text)."),
+    class_name: str = ClassOpt,
+    term: str = TermOpt,
+    workspace: Path = WorkspaceOpt,
+    manifest: Optional[Path] = typer.Option(None, "--manifest", help="CSV with columns file,writer[,l1,level,task]."),
+    model: Optional[str] = typer.Option(None, "--model", help="spaCy pipeline (package name or path)."),
+    processes: Optional[int] = typer.Option(None, "--processes", min=1, help="Parser processes (default: all cores)."),
+    reference: list[str] = typer.Option([], "--reference", help="Reference name or folder (repeatable; default: brown)."),
+    min_count: int = typer.Option(3, "--min-count", min=1, help="Instances a pattern needs to be flagged."),
+    min_writers: int = typer.Option(2, "--min-writers", min=1, help="Distinct writers a pattern needs to be flagged."),
+    min_reference: int = typer.Option(20, "--min-reference", min=0, help="Attachments the governor needs in the reference."),
+    min_g2: float = typer.Option(10.83, "--min-g2", min=0, help="Log-likelihood G2 threshold (10.83: p < .001)."),
+    min_log_ratio: float = typer.Option(1.0, "--min-log-ratio", help="Log Ratio threshold (1 = twice the native rate)."),
+    measure: str = typer.Option("oe", "--measure", help="Score of the collocation ratio: oe, mi or logdice."),
+    term_start: Optional[str] = typer.Option(None, "--term-start", help="First day of the term, YYYY-MM-DD (orders terms; default: today)."),
+    l1: Optional[str] = typer.Option(None, "--l1", help="Learners' first language (ISO 639-1) when the manifest has none."),
+    top: int = typer.Option(10, "--top", min=0, help="How many patterns to list."),
+    quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bar."),
+):
+    """Scan a folder of essays for one class and term, and store the run."""
+    from rich.progress import Progress
+
+    from .pipeline import scan as run_scan
+
+    if not essays.exists():
+        _fail(f"essay folder not found: {essays}")
+    settings = dict(min_count=min_count, min_writers=min_writers, min_reference=min_reference, min_g2=min_g2,
+                    min_log_ratio=min_log_ratio, measure=measure)
+    try:
+        with Progress(console=err, transient=True, disable=quiet) as bar:
+            task = bar.add_task("parsing essays", total=None)
+            result = run_scan(
+                essays, class_name=class_name, term=term, workspace=workspace, manifest=manifest, model=model,
+                processes=processes, references=reference, settings=settings, term_start=term_start, l1=l1,
+                progress=lambda done, total: bar.update(task, completed=done, total=total),
+            )
+    except HingewordError as exc:
+        _fail(str(exc))
+    print_scan_summary(result, top)
+
+
+def print_scan_summary(result, top: int) -> None:
+    ing = result.ingest
+    st = result.parse_stats
+    out.print(f"hingeword {__version__} · model {result.model} · reference {result.reference_name}")
+    out.print(f"{result.class_name} / {result.term}: {len(ing.essays)} essays read, {len(ing.skipped)} skipped, "
+              f"{ing.word_count:,} words; parsed {st.parsed}, from cache {st.from_cache}")
+    for s in ing.skipped:
+        out.print(f"  skipped {s.source}: {s.reason}", markup=False)
+    for group in ing.duplicates:
+        out.print(f"  identical essays (kept): {', '.join(group)}", markup=False)
+    for nd in ing.near_duplicates:
+        out.print(f"  near-duplicates (kept): {nd.first} ~ {nd.second} ({nd.similarity:.0f}%)", markup=False)
+    for (lemma, pos), known in sorted(result.typo_groups.items()):
+        out.print(f"  spelling: '{lemma}' ({pos}) counted as '{known}'", markup=False)
+    df = result.patterns
+    out.print(f"{result.attachments:,} attachments in {int((df.learner_count > 0).sum()):,} patterns; "
+              f"{int(df.flagged.sum())} flagged as over-used, {int((df.status == 'under-used').sum())} under-used")
+    flagged = df[df.flagged]
+    if len(flagged):
+        out.print("Over-used (candidates for your judgement, not verdicts):")
+        for line in pattern_lines(flagged.head(top)):
+            out.print("  " + line, markup=False)
+    under = df[df.status == "under-used"]
+    if len(under):
+        out.print("Under-used (native patterns the class avoids):")
+        for line in pattern_lines(under.head(top)):
+            out.print("  " + line, markup=False)
+    if not len(flagged):
+        out.print("Most used patterns:")
+        for line in pattern_lines(df.sort_values(["learner_writers", "learner_count"], ascending=False).head(top)):
+            out.print("  " + line, markup=False)
+
+
+def pattern_lines(df) -> list[str]:
+    lines = []
+    for r in df.itertuples():
+        lines.append(
+            f"{r.governor + ' + ' + r.preposition:<24} {r.learner_count:>3}× by {r.learner_writers} writers "
+            f"({100 * r.learner_share:.0f}% of {r.governor}); native {r.reference_count} of "
+            f"{r.reference_governor_count} ({100 * r.reference_share:.1f}%); LR {r.log_ratio:+.1f}, G2 {r.log_likelihood:.1f}"
+        )
+    return lines
+
+
+@app.command()
+def export(
+    class_name: str = ClassOpt,
+    term: str = TermOpt,
+    workspace: Path = WorkspaceOpt,
+    output: Path = typer.Option(..., "-o", "--output", help="File to write: .csv, .xlsx or .json."),
+):
+    """Export one row per pattern (CSV, XLSX or JSON by the file's suffix)."""
+    from .export import patterns_frame, write_patterns
+    from .history import Workspace
+
+    try:
+        with Workspace(workspace, create=False) as ws:
+            run = ws.run(class_name, term)
+            df = patterns_frame(ws.figures(run["id"]))
+        write_patterns(df, output)
+    except HingewordError as exc:
+        _fail(str(exc))
+    err.print(f"wrote {len(df)} patterns to {output}")
+
+
+@app.command()
+def concordance(
+    governor: str = typer.Argument(..., help="Governor lemma, e.g. discuss."),
+    preposition: str = typer.Argument(..., help="Preposition, or - for a direct object."),
+    class_name: str = ClassOpt,
+    term: str = TermOpt,
+    workspace: Path = WorkspaceOpt,
+    width: int = typer.Option(40, "--width", min=10, help="Characters of context on each side."),
+):
+    """Print key-word-in-context lines of one pattern with writer ids."""
+    from .export import kwic
+    from .history import Workspace
+
+    try:
+        with Workspace(workspace, create=False) as ws:
+            run = ws.run(class_name, term)
+            atts = [a for a in ws.attachments(run["id"])
+                    if a.governor == governor.lower() and a.preposition == preposition.lower()]
+            texts = {e["essay_id"]: e["text"] for e in ws.essays(run["id"])}
+    except HingewordError as exc:
+        _fail(str(exc))
+    if not atts:
+        _fail(f"no '{governor} + {preposition}' in {class_name} / {term}")
+    for writer, left, key, right, _ in kwic(atts, texts, width):
+        out.print(f"{writer[:14]:<14} {left:>{width}} [{key}] {right}", markup=False)
+    err.print(f"{len(atts)} lines")
+
+
+# ------------------------------------------------------------------ reference
+
+
+@reference_app.command("build")
+def reference_build(
+    source: Path = typer.Argument(..., help="Folder of native .txt files (recursive), or of .conllu files."),
+    name: str = typer.Option(..., "--name", help="Name of the new reference."),
+    fmt: str = typer.Option("text", "--format", help="text or conllu."),
+    workspace: Path = WorkspaceOpt,
+    output: Optional[Path] = typer.Option(None, "--output", "-o", help="Folder to write (default: WORKSPACE/references/NAME)."),
+    model: Optional[str] = typer.Option(None, "--model", help="spaCy pipeline for text input."),
+    processes: int = typer.Option(1, "--processes", min=1, help="Parser processes."),
+    description: str = typer.Option("", "--description", help="What the texts are (stored in the manifest)."),
+    licence: str = typer.Option("not stated", "--licence", help="Licence of the source texts."),
+    limits: str = typer.Option("", "--limits", help="What the reference does not represent."),
+    build_date: Optional[str] = typer.Option(None, "--build-date", help="Date to record (default: today)."),
+    quiet: bool = typer.Option(False, "--quiet", "-q"),
+):
+    """Build a reference from native writing (resumes after an interruption)."""
+    from rich.progress import Progress
+
+    from . import reference as ref
+
+    target = output or ref.references_dir(workspace) / name
+    try:
+        with Progress(console=err, transient=True, disable=quiet) as bar:
+            task = bar.add_task(f"building {name}", total=None)
+            path = ref.build(source, target, name=name, fmt=fmt, model=model, processes=processes,
+                             description=description, licence=licence, limits=limits, build_date=build_date,
+                             progress=lambda p: bar.update(task, completed=p.files_done, total=p.files_total))
+        manifest = ref.read_manifest(path)
+    except HingewordError as exc:
+        _fail(str(exc))
+    out.print(f"built {name} at {path}: {manifest['documents']} files, {manifest['words']:,} words, "
+              f"{manifest['attachments']:,} attachments, parser {manifest['model']} {manifest['model_version']}")
+
+
+@reference_app.command("list")
+def reference_list(workspace: Path = WorkspaceOpt):
+    """List the bundled references and those in the workspace."""
+    from . import reference as ref
+
+    for path, man in ref.list_references(workspace):
+        if "error" in man:
+            out.print(f"{man['name']:<16} {man['error']}", markup=False)
+        else:
+            out.print(f"{man['name']:<16} {int(man.get('words', 0)):>11,} words  {man.get('source', '')}  [{path}]", markup=False)
+
+
+@reference_app.command("info")
+def reference_info(name: str = typer.Argument(..., help="Reference name or folder."), workspace: Path = WorkspaceOpt):
+    """Show a reference's manifest: source, licence, size, parser, limits."""
+    from . import reference as ref
+
+    try:
+        path = ref.resolve(name, workspace)
+        man = ref.read_manifest(path)
+    except HingewordError as exc:
+        _fail(str(exc))
+    for key in ("name", "source", "licence", "limits", "words", "sentences", "documents", "attachments", "patterns",
+                "model", "model_version", "extractor_version", "build_date"):
+        if key in man:
+            val = f"{man[key]:,}" if isinstance(man[key], int) else man[key]
+            out.print(f"{key:<18} {val}", markup=False)
+    out.print(f"{'path':<18} {path}", markup=False)
+
+
+def main() -> None:
+    try:
+        app()
+    except HingewordError as exc:  # a library error that slipped past a command
+        err.print(f"Error: {exc}", markup=False)
+        sys.exit(1)

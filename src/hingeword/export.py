@@ -1,0 +1,74 @@
+"""Exports for researchers: one row per pattern (CSV, XLSX, JSON) and KWIC lines.
+
+Column contract (order and spelling fixed): ``governor, governor_pos,
+preposition, learner_count, learner_writers, learner_governor_count,
+reference_count, reference_governor_count, collocation_ratio, log_likelihood,
+log_ratio, flagged, status, cause, suggestion``, then the extra figures.
+``flagged`` is written ``true``/``false``.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pandas as pd
+
+from .errors import HingewordError
+from .extract import Attachment
+
+CONTRACT = [
+    "governor", "governor_pos", "preposition", "learner_count", "learner_writers", "learner_governor_count",
+    "reference_count", "reference_governor_count", "collocation_ratio", "log_likelihood", "log_ratio",
+    "flagged", "status", "cause", "suggestion",
+]
+SUFFIXES = (".csv", ".xlsx", ".json")
+
+
+def patterns_frame(figures: list[dict]) -> pd.DataFrame:
+    """The stored figures of a run as a DataFrame in contract order, rows as stored."""
+    df = pd.DataFrame(figures)
+    for col in CONTRACT:
+        if col not in df.columns:
+            df[col] = "" if col in ("cause", "suggestion", "status") else pd.NA
+    from .score import EXTRA
+
+    extra = [c for c in EXTRA if c in df.columns] + sorted(c for c in df.columns if c not in CONTRACT and c not in EXTRA)
+    return df[CONTRACT + extra]
+
+
+def write_patterns(df: pd.DataFrame, path: str | Path) -> Path:
+    """Write by the file's suffix: .csv (UTF-8), .xlsx or .json (records)."""
+    path = Path(path)
+    suffix = path.suffix.lower()
+    if suffix not in SUFFIXES:
+        raise HingewordError(f"cannot export to '{path.name}': use a file ending in .csv, .xlsx or .json")
+    path.parent.mkdir(parents=True, exist_ok=True)
+    out = df.copy()
+    if "flagged" in out.columns:
+        out["flagged"] = out["flagged"].map(lambda v: "true" if bool(v) is True and v is not pd.NA else "false")
+    if suffix == ".csv":
+        out.to_csv(path, index=False, float_format="%.6g", lineterminator="\n")
+    elif suffix == ".xlsx":
+        out.to_excel(path, index=False, sheet_name="patterns")
+    else:
+        records = json.loads(out.to_json(orient="records", double_precision=10))
+        path.write_text(json.dumps(records, indent=1, ensure_ascii=False) + "\n", encoding="utf-8")
+    return path
+
+
+def kwic(attachments: list[Attachment], texts: dict[str, str], width: int = 40) -> list[tuple[str, str, str, str, str]]:
+    """Key-word-in-context lines: (writer, left, governor…preposition, right, essay id).
+
+    The key spans from the governor to the preposition (or the object for ``-``),
+    whichever comes first, so stranded prepositions read naturally.
+    """
+    lines = []
+    for a in attachments:
+        text = texts.get(a.essay_id, "")
+        start, end = min(a.gov_start, a.prep_start), max(a.gov_end, a.prep_end)
+        left = " ".join(text[max(0, start - width * 2):start].split())[-width:]
+        right = " ".join(text[end:end + width * 2].split())[:width]
+        key = " ".join(text[start:end].split())
+        lines.append((a.writer, left, key, right, a.essay_id))
+    return lines

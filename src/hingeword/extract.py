@@ -1,0 +1,187 @@
+"""Extract stage: governor–preposition attachments from a parsed ``Doc``.
+
+One :class:`Attachment` per instance. The rules (ClearNLP labels, as spaCy's
+English pipelines use them):
+
+* a governor is a token whose (repaired) POS is VERB, ADJ or NOUN; auxiliaries
+  (copular "be", modals), proper nouns, pronouns and adverbs are not governors;
+* its preposition is a dependent labelled ``prep``, ``agent`` (passive "by"),
+  ``dative`` when the word is a preposition ("give it *to* her", not the bare
+  "give *her* it") or ``prt`` (phrasal particle: "give *up*"); stranded
+  prepositions ("the topic we talked *about*") are ordinary ``prep`` dependents
+  without an object and are included; "than" is left out (a comparison, not a
+  collocation);
+* multiword prepositions (:data:`MULTIWORD`) are kept whole and attach to the
+  governor of the phrase ("stood *in front of* the house" → stand + "in front of");
+* a direct object (``dobj``) of a verb gives the zero-preposition slot ``-``,
+  so that "listen music" and "discuss about" compare against the same governor;
+* infinitival "to" (tag ``TO``, label ``aux``) is never a preposition;
+* no propagation over coordination: a shared dependent counts for the conjunct
+  the parser attaches it to.
+
+Repairs for learner errors that mislead the small pipeline (each documented in
+:func:`repaired_pos`).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from dataclasses import dataclass, replace
+
+GOVERNOR_POS = frozenset({"VERB", "ADJ", "NOUN"})
+PREP_DEPS = frozenset({"prep", "agent", "prt"})
+NO_PREP = "-"
+_EXCLUDED_PREPS = frozenset({"than"})
+
+#: Multiword prepositions kept whole (common practice in ESL grammars), longest first.
+MULTIWORD: tuple[tuple[str, ...], ...] = tuple(
+    sorted(
+        (
+            tuple(s.split())
+            for s in (
+                "in front of", "in spite of", "in addition to", "on top of", "in terms of",
+                "by means of", "on behalf of", "in case of", "as a result of", "with regard to",
+                "in charge of", "because of", "instead of", "according to", "due to", "out of",
+                "apart from", "next to", "thanks to", "prior to", "regardless of", "ahead of",
+                "away from", "close to", "up to",
+            )
+        ),
+        key=lambda s: (-len(s), s),
+    )
+)
+
+
+@dataclass(frozen=True)
+class Attachment:
+    """One governor–preposition instance in one essay.
+
+    Character offsets index the essay text (``Doc.text``). For the ``-`` slot the
+    preposition offsets span the direct object's head word.
+    """
+
+    essay_id: str
+    writer: str
+    governor: str  # lemma, lower case (after typo grouping)
+    governor_pos: str  # VERB / ADJ / NOUN
+    governor_text: str  # surface form as written
+    preposition: str  # lower case, multiword kept whole, or "-"
+    relation: str  # prep / agent / dative / prt / multiword / dobj
+    sentence: str
+    sentence_start: int
+    gov_start: int
+    gov_end: int
+    prep_start: int
+    prep_end: int
+    original_governor: str = ""  # lemma before typo grouping, "" if unchanged
+
+    @property
+    def key(self) -> tuple[str, str, str]:
+        return (self.governor, self.governor_pos, self.preposition)
+
+
+def repaired_pos(token) -> str:
+    """The token's POS after rules that undo known mis-tags on learner text.
+
+    Rule 1 (verb read as a plural noun): "Our school lacks of money" — with the
+    wrong preposition the small pipeline reads "school lacks" as one noun phrase
+    and "lacks" as the sentence's root noun. A NOUN that is the root of a
+    sentence containing no verb, has a ``compound`` dependent on its left (the
+    real subject, whose determiner the parser hangs on the root) and a ``prep``
+    dependent on its right is re-read as a VERB. Verbless sentences are rare in
+    essays, so the rule seldom fires on a true noun phrase.
+    """
+    pos = token.pos_
+    if pos == "NOUN" and token.dep_ == "ROOT" and token.tag_ in ("NNS", "NN", "VBZ"):
+        sent = token.sent
+        if not any(t.pos_ in ("VERB", "AUX") for t in sent):
+            lefts = list(token.lefts)
+            if any(c.dep_ == "compound" for c in lefts) and any(c.dep_ == "prep" for c in token.rights):
+                return "VERB"
+    return pos
+
+
+def _multiword_at(doc, i: int) -> tuple[str, ...] | None:
+    low = [t.lower_ for t in doc[i : i + 4]]
+    for seq in MULTIWORD:
+        if tuple(low[: len(seq)]) == seq:
+            return seq
+    return None
+
+
+def _make(doc, gov, first, last, prep: str, relation: str, essay_id: str, writer: str) -> Attachment:
+    sent = gov.sent
+    return Attachment(
+        essay_id=essay_id,
+        writer=writer,
+        governor=gov.lemma_.lower(),
+        governor_pos=repaired_pos(gov),
+        governor_text=gov.text,
+        preposition=prep,
+        relation=relation,
+        sentence=sent.text,
+        sentence_start=sent.start_char,
+        gov_start=gov.idx,
+        gov_end=gov.idx + len(gov.text),
+        prep_start=first.idx,
+        prep_end=last.idx + len(last.text),
+    )
+
+
+def extract_doc(doc, essay_id: str = "", writer: str = "") -> list[Attachment]:
+    """All attachments of one parsed text, in text order (see module docstring)."""
+    out: list[Attachment] = []
+    consumed: set[int] = set()
+    # Multiword prepositions first: the inner words must not count on their own.
+    for i in range(len(doc)):
+        if i in consumed:
+            continue
+        seq = _multiword_at(doc, i)
+        if seq is None:
+            continue
+        span = doc[i : i + len(seq)]
+        inside = {t.i for t in span}
+        heads = [t.head for t in span if t.head.i not in inside and t.dep_ != "ROOT"]
+        if not heads:
+            continue
+        first_dep = span[0].dep_
+        # "out of" and "up to" are ordinary words too ("up to you"): only when the
+        # first word is itself a preposition, particle or modifier of the head.
+        if first_dep not in ("prep", "prt", "advmod", "amod", "acomp", "pcomp", "agent", "npadvmod", "dative"):
+            if not (span[-1].dep_ in PREP_DEPS and span[-1].head.i not in inside):
+                continue
+        consumed |= inside
+        gov = heads[0]
+        if repaired_pos(gov) in GOVERNOR_POS:
+            out.append(_make(doc, gov, span[0], span[-1], " ".join(seq), "multiword", essay_id, writer))
+    for tok in doc:
+        if tok.i in consumed:
+            continue
+        head = tok.head
+        if head.i == tok.i:
+            continue
+        dep = tok.dep_
+        if dep in PREP_DEPS or (dep == "dative" and tok.tag_ == "IN"):
+            if tok.tag_ == "TO" and dep not in ("prep", "dative", "prt"):
+                continue
+            word = tok.lower_
+            if not word.isalpha() or word in _EXCLUDED_PREPS:
+                continue
+            if repaired_pos(head) in GOVERNOR_POS:
+                out.append(_make(doc, head, tok, tok, word, dep, essay_id, writer))
+        elif dep == "dobj" and repaired_pos(head) == "VERB":
+            out.append(_make(doc, head, tok, tok, NO_PREP, "dobj", essay_id, writer))
+    out.sort(key=lambda a: (a.gov_start, a.prep_start, a.preposition))
+    return out
+
+
+def regroup_typos(attachments: Iterable[Attachment], mapping: dict[tuple[str, str], str]) -> list[Attachment]:
+    """Replace misspelt governor lemmas by the known lemma ``mapping`` gives.
+
+    :param mapping: ``(lemma, pos) -> known lemma`` from :func:`hingeword.lexicon.typo_map`.
+    The surface form stays as written; ``original_governor`` keeps the old lemma.
+    """
+    out = []
+    for a in attachments:
+        new = mapping.get((a.governor, a.governor_pos))
+        out.append(replace(a, governor=new, original_governor=a.governor) if new else a)
+    return out

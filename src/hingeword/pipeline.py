@@ -1,0 +1,129 @@
+"""The scan: ingest → parse → extract → (typo grouping) → score → store.
+
+:func:`scan` is what ``hingeword scan`` calls; everything it does can be done from
+Python with the same function.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import logging
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from . import EXTRACTOR_VERSION, __version__
+from .extract import extract_doc, regroup_typos
+from .history import Workspace
+from .ingest import IngestResult, read_essays
+from .parse import ModelInfo, ParseStats, default_processes, load_model, parse_texts
+from .patterns import count_patterns, typo_map
+
+log = logging.getLogger("hingeword")
+
+
+@dataclass
+class ScanResult:
+    run_id: int
+    class_name: str
+    term: str
+    model: ModelInfo
+    ingest: IngestResult
+    parse_stats: ParseStats
+    attachments: int
+    patterns: object  # pandas DataFrame of scored patterns
+    typo_groups: dict = field(default_factory=dict)
+    reference_name: str = ""
+    settings: dict = field(default_factory=dict)
+
+
+def ingest_notes(result: IngestResult) -> list[tuple[str, str]]:
+    """Duplicate and near-duplicate warnings as (kind, message) notes."""
+    notes = []
+    for group in result.duplicates:
+        notes.append(("duplicate", f"identical essays (all kept): {', '.join(group)}"))
+    for nd in result.near_duplicates:
+        notes.append(("near-duplicate", f"{nd.first} and {nd.second} are {nd.similarity:.0f}% similar (both kept; check for copying or a double upload)"))
+    return notes
+
+
+def scan(
+    folder: str | Path,
+    *,
+    class_name: str,
+    term: str,
+    workspace: str | Path,
+    manifest: str | Path | None = None,
+    model: str | None = None,
+    processes: int | None = None,
+    references: Sequence[str] = (),
+    settings: dict | None = None,
+    term_start: str | None = None,
+    l1: str | None = None,
+    progress: Callable[[int, int], None] | None = None,
+) -> ScanResult:
+    """Scan one class's essays for one term and store the run in the workspace.
+
+    :param settings: scoring thresholds (see :data:`hingeword.score.DEFAULTS`).
+    :param progress: called as ``progress(done, total)`` while parsing.
+    """
+    from . import reference as ref_mod
+    from .score import score_run
+
+    ingest = read_essays(folder, manifest=manifest)
+    reference = ref_mod.load_many(references, workspace)
+    nlp, info = load_model(model)
+    ws = Workspace(workspace)
+    try:
+        stats = ParseStats()
+        texts = [e.text for e in ingest.essays]
+        done = 0
+
+        def tick(n: int) -> None:
+            nonlocal done
+            done += n
+            if progress:
+                progress(done, len(texts))
+
+        attachments = []
+        docs = parse_texts(texts, nlp, info, cache_dir=ws.cache_dir, processes=processes or default_processes(),
+                           stats=stats, progress=tick)
+        for essay, doc in zip(ingest.essays, docs):
+            attachments.extend(extract_doc(doc, essay.essay_id, essay.writer))
+        groups = typo_map({(a.governor, a.governor_pos) for a in attachments}, reference.lemmas)
+        attachments = regroup_typos(attachments, groups)
+        counts = count_patterns(attachments)
+        scored, used = score_run(counts, attachments, ingest.essays, reference, settings or {})
+        run_settings = {**used, "term_start": term_start or _dt.date.today().isoformat(), "l1": l1}
+        run_meta = {
+            "tool_version": __version__,
+            "model": info.name,
+            "model_version": info.version,
+            "extractor_version": EXTRACTOR_VERSION,
+            "source": str(Path(folder)),
+            "words": sum(e.word_count for e in ingest.essays),
+            "settings": run_settings,
+            "reference": reference.manifest,
+        }
+        notes = ingest_notes(ingest)
+        notes += [("typo", f"'{k[0]}' ({k[1]}) grouped under '{v}'") for k, v in sorted(groups.items())]
+        ref_model = str(reference.manifest.get("model", ""))
+        if ref_model and ref_model != info.name and not ref_model.startswith("gold") and "," not in ref_model:
+            notes.append(("model", f"essays parsed with {info.name}, reference with {ref_model}: counts may differ by parser"))
+        run_id = ws.replace_run(
+            class_name=class_name,
+            term=term,
+            run_meta=run_meta,
+            essays=ingest.essays,
+            skipped=ingest.skipped,
+            notes=notes,
+            attachments=attachments,
+            pattern_figures=scored.to_dict("records"),
+        )
+    finally:
+        ws.close()
+    return ScanResult(
+        run_id=run_id, class_name=class_name, term=term, model=info, ingest=ingest, parse_stats=stats,
+        attachments=len(attachments), patterns=scored, typo_groups=groups, reference_name=reference.name,
+        settings=run_settings,
+    )

@@ -1,0 +1,379 @@
+"""Reference stage: native counts of the same patterns, by the same parser and extractor.
+
+A reference is a directory holding
+
+* ``manifest.json`` — name, source, licence, words, sentences, documents,
+  attachments, parser model and version, extractor version, build date, limits,
+  and the sha256 of each data file;
+* ``patterns.tsv.gz`` — ``governor, governor_pos, preposition, count``;
+* ``lemmas.tsv.gz`` — ``lemma, pos, tokens``: every VERB/ADJ/NOUN token's lemma
+  (the lexicon typo grouping checks against, and each governor's token count).
+
+The 2x2 totals of METHODS.md §1 follow from the pattern counts: R1 = sum of a
+governor's rows, C1 = sum of a preposition's rows, N = sum of all rows.
+Gzip files are written with a zero timestamp so that building twice gives
+byte-identical artefacts.
+"""
+
+from __future__ import annotations
+
+import csv
+import datetime as _dt
+import gzip
+import hashlib
+import io
+import json
+import logging
+import os
+import shutil
+from collections import Counter
+from collections.abc import Callable, Iterable, Iterator, Sequence
+from dataclasses import dataclass, field
+from importlib import resources
+from pathlib import Path
+
+from . import EXTRACTOR_VERSION
+from .errors import ReferenceDataError
+
+log = logging.getLogger("hingeword")
+
+FORMAT_VERSION = 1
+BUNDLED = "brown"
+_DATA_FILES = ("patterns.tsv.gz", "lemmas.tsv.gz")
+_CHUNK_CHARS = 20_000
+
+
+@dataclass
+class Reference:
+    """Pattern and lemma counts of one (or several combined) native references."""
+
+    manifest: dict
+    patterns: Counter = field(default_factory=Counter)  # (gov, pos, prep) -> count
+    lemmas: Counter = field(default_factory=Counter)  # (lemma, pos) -> tokens
+    path: str = ""
+
+    @property
+    def name(self) -> str:
+        return self.manifest.get("name", "?")
+
+    @property
+    def total(self) -> int:
+        return sum(self.patterns.values())
+
+    def governor_totals(self) -> Counter:
+        out: Counter = Counter()
+        for (g, p, _), n in self.patterns.items():
+            out[(g, p)] += n
+        return out
+
+    def preposition_totals(self) -> Counter:
+        out: Counter = Counter()
+        for (_, _, prep), n in self.patterns.items():
+            out[prep] += n
+        return out
+
+
+# --------------------------------------------------------------------------- I/O
+
+
+def _write_tsv_gz(path: Path, header: Sequence[str], rows: Iterable[Sequence]) -> str:
+    buf = io.StringIO()
+    w = csv.writer(buf, delimiter="\t", lineterminator="\n")
+    w.writerow(header)
+    w.writerows(rows)
+    raw = io.BytesIO()
+    with gzip.GzipFile(filename="", mode="wb", fileobj=raw, mtime=0) as gz:
+        gz.write(buf.getvalue().encode("utf-8"))
+    data = raw.getvalue()
+    path.write_bytes(data)
+    return hashlib.sha256(data).hexdigest()
+
+
+def _read_tsv_gz(path: Path, expected_sha: str | None) -> list[list[str]]:
+    try:
+        data = path.read_bytes()
+    except OSError as exc:
+        raise ReferenceDataError(f"reference file {path} cannot be read: {exc.strerror}") from None
+    if expected_sha and hashlib.sha256(data).hexdigest() != expected_sha:
+        raise ReferenceDataError(f"reference file {path} is corrupt or truncated (checksum mismatch); rebuild it")
+    try:
+        text = gzip.decompress(data).decode("utf-8")
+    except (OSError, EOFError, UnicodeDecodeError) as exc:
+        raise ReferenceDataError(f"reference file {path} is corrupt or truncated ({exc}); rebuild it") from None
+    rows = list(csv.reader(io.StringIO(text), delimiter="\t"))
+    return rows[1:]
+
+
+def save(ref: Reference, out_dir: str | Path) -> Path:
+    """Write ``ref`` to ``out_dir`` (replaced atomically)."""
+    out = Path(out_dir)
+    tmp = out.with_name(out.name + ".writing")
+    if tmp.exists():
+        shutil.rmtree(tmp)
+    tmp.mkdir(parents=True)
+    pat_rows = sorted(((g, p, prep, n) for (g, p, prep), n in ref.patterns.items()), key=lambda r: (r[0], r[1], r[2]))
+    lem_rows = sorted(((lem, p, n) for (lem, p), n in ref.lemmas.items()), key=lambda r: (r[0], r[1]))
+    files = {
+        "patterns.tsv.gz": _write_tsv_gz(tmp / "patterns.tsv.gz", ("governor", "governor_pos", "preposition", "count"), pat_rows),
+        "lemmas.tsv.gz": _write_tsv_gz(tmp / "lemmas.tsv.gz", ("lemma", "pos", "tokens"), lem_rows),
+    }
+    manifest = dict(ref.manifest)
+    manifest["format_version"] = FORMAT_VERSION
+    manifest["attachments"] = sum(ref.patterns.values())
+    manifest["patterns"] = len(ref.patterns)
+    manifest["files"] = files
+    (tmp / "manifest.json").write_text(json.dumps(manifest, indent=2, sort_keys=True, ensure_ascii=False) + "\n", encoding="utf-8")
+    if out.exists():
+        shutil.rmtree(out)
+    os.replace(tmp, out)
+    return out
+
+
+def read_manifest(path: str | Path) -> dict:
+    p = Path(path) / "manifest.json"
+    try:
+        manifest = json.loads(p.read_text(encoding="utf-8"))
+    except FileNotFoundError:
+        raise ReferenceDataError(f"no reference at {path} (missing {p.name})") from None
+    except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
+        raise ReferenceDataError(f"reference manifest {p} is corrupt or truncated: {exc}") from None
+    if not isinstance(manifest, dict) or "files" not in manifest:
+        raise ReferenceDataError(f"reference manifest {p} is incomplete (no 'files' entry); rebuild it")
+    return manifest
+
+
+def load(path: str | Path) -> Reference:
+    """Load one reference directory; every damage gives a one-line error naming the file."""
+    path = Path(path)
+    manifest = read_manifest(path)
+    files = manifest.get("files", {})
+    ref = Reference(manifest=manifest, path=str(path))
+    for row in _read_tsv_gz(path / "patterns.tsv.gz", files.get("patterns.tsv.gz")):
+        try:
+            g, p, prep, n = row
+            ref.patterns[(g, p, prep)] += int(n)
+        except ValueError:
+            raise ReferenceDataError(f"reference file {path / 'patterns.tsv.gz'} has a malformed row: {row!r}") from None
+    for row in _read_tsv_gz(path / "lemmas.tsv.gz", files.get("lemmas.tsv.gz")):
+        try:
+            lem, p, n = row
+            ref.lemmas[(lem, p)] += int(n)
+        except ValueError:
+            raise ReferenceDataError(f"reference file {path / 'lemmas.tsv.gz'} has a malformed row: {row!r}") from None
+    return ref
+
+
+def bundled_dir() -> Path:
+    return Path(str(resources.files("hingeword") / "data" / "reference"))
+
+
+def references_dir(workspace: str | Path) -> Path:
+    return Path(workspace) / "references"
+
+
+def resolve(name_or_path: str, workspace: str | Path | None = None) -> Path:
+    """A reference directory from a name (bundled or in the workspace) or a path."""
+    p = Path(name_or_path)
+    if p.is_dir() or os.sep in name_or_path or "/" in name_or_path:
+        if not (p / "manifest.json").exists():
+            raise ReferenceDataError(f"no reference at {name_or_path} (missing manifest.json)")
+        return p
+    candidates = []
+    if workspace is not None:
+        candidates.append(references_dir(workspace) / name_or_path)
+    candidates.append(bundled_dir() / name_or_path)
+    for c in candidates:
+        if (c / "manifest.json").exists():
+            return c
+    known = ", ".join(sorted(m["name"] for _, m in list_references(workspace))) or "none"
+    raise ReferenceDataError(f"unknown reference '{name_or_path}' (known: {known})")
+
+
+def list_references(workspace: str | Path | None = None) -> list[tuple[Path, dict]]:
+    out = []
+    roots = [bundled_dir()] + ([references_dir(workspace)] if workspace is not None else [])
+    for root in roots:
+        if not root.is_dir():
+            continue
+        for d in sorted(root.iterdir()):
+            if (d / "manifest.json").is_file():
+                try:
+                    out.append((d, read_manifest(d)))
+                except ReferenceDataError as exc:
+                    out.append((d, {"name": d.name, "error": str(exc)}))
+    return out
+
+
+def load_many(names: Sequence[str], workspace: str | Path | None = None) -> Reference:
+    """Load and combine references by adding counts; the manifest lists the parts."""
+    names = list(names) or [BUNDLED]
+    refs = [load(resolve(n, workspace)) for n in names]
+    if len(refs) == 1:
+        return refs[0]
+    combined = Reference(manifest={
+        "name": "+".join(r.name for r in refs),
+        "combined_from": [r.manifest for r in refs],
+        "words": sum(int(r.manifest.get("words", 0)) for r in refs),
+        "sentences": sum(int(r.manifest.get("sentences", 0)) for r in refs),
+        "model": ", ".join(sorted({str(r.manifest.get("model", "?")) for r in refs})),
+        "extractor_version": ", ".join(sorted({str(r.manifest.get("extractor_version", "?")) for r in refs})),
+    })
+    for r in refs:
+        combined.patterns.update(r.patterns)
+        combined.lemmas.update(r.lemmas)
+    combined.manifest["attachments"] = combined.total
+    return combined
+
+
+# ------------------------------------------------------------------------- build
+
+
+def _text_files(source: Path, suffixes: tuple[str, ...]) -> list[Path]:
+    return sorted(p for p in source.rglob("*") if p.is_file() and p.suffix.lower() in suffixes and not p.name.startswith("."))
+
+
+def _chunks(text: str) -> Iterator[str]:
+    """Paragraph-sized pieces (blank-line separated, at most ~20,000 characters)."""
+    buf: list[str] = []
+    size = 0
+    for para in text.split("\n\n"):
+        if size + len(para) > _CHUNK_CHARS and buf:
+            yield "\n\n".join(buf)
+            buf, size = [], 0
+        buf.append(para)
+        size += len(para) + 2
+    if buf and any(b.strip() for b in buf):
+        yield "\n\n".join(buf)
+
+
+def count_doc(doc, patterns: Counter, lemmas: Counter) -> tuple[int, int]:
+    """Add one parsed text's attachments and lemma tokens; return (words, sentences)."""
+    from .extract import GOVERNOR_POS, extract_doc, repaired_pos
+
+    for a in extract_doc(doc):
+        patterns[a.key] += 1
+    words = 0
+    for t in doc:
+        if t.is_alpha:
+            words += 1
+        pos = repaired_pos(t)
+        if pos in GOVERNOR_POS:
+            lemmas[(t.lemma_.lower(), pos)] += 1
+    return words, sum(1 for _ in doc.sents)
+
+
+@dataclass
+class BuildProgress:
+    files_total: int
+    files_done: int
+
+
+def build(
+    source: str | Path,
+    out_dir: str | Path,
+    *,
+    name: str,
+    fmt: str = "text",
+    model: str | None = None,
+    processes: int = 1,
+    description: str = "",
+    licence: str = "unknown (state it with --licence)",
+    limits: str = "",
+    checkpoint_every: int = 20,
+    progress: Callable[[BuildProgress], None] | None = None,
+    build_date: str | None = None,
+) -> Path:
+    """Build a reference from a folder of plain text (``fmt="text"``) or CoNLL-U files.
+
+    Streams file by file: memory grows with the vocabulary, not with the corpus.
+    Every ``checkpoint_every`` files the counts so far are saved beside the output
+    (``<out>.partial/``); a build started again with the same arguments resumes there.
+    """
+    source = Path(source)
+    if not source.is_dir():
+        raise ReferenceDataError(f"reference source folder not found: {source}")
+    if fmt not in ("text", "conllu"):
+        raise ReferenceDataError(f"unknown format '{fmt}' (use text or conllu)")
+    out = Path(out_dir)
+    files = _text_files(source, (".txt",) if fmt == "text" else (".conllu", ".conll"))
+    if not files:
+        raise ReferenceDataError(f"no {'.txt' if fmt == 'text' else '.conllu'} files under {source}")
+    if fmt == "text":
+        from .parse import load_model
+
+        nlp, info = load_model(model)
+        model_desc = {"model": info.name, "model_version": info.version}
+    else:
+        nlp = None
+        model_desc = {"model": "gold (CoNLL-U)", "model_version": "-"}
+    partial = out.with_name(out.name + ".partial")
+    state_path = partial / "state.json"
+    key = {"source": str(source.resolve()), "format": fmt, **model_desc, "extractor_version": EXTRACTOR_VERSION}
+    patterns: Counter = Counter()
+    lemmas: Counter = Counter()
+    totals = {"words": 0, "sentences": 0, "documents": 0}
+    done: list[str] = []
+    if state_path.is_file():
+        try:
+            state = json.loads(state_path.read_text(encoding="utf-8"))
+            if state.get("key") == key:
+                done = state["done"]
+                totals = state["totals"]
+                saved = load(partial)
+                patterns, lemmas = saved.patterns, saved.lemmas
+                log.info("resuming reference build: %d of %d files already counted", len(done), len(files))
+        except (ReferenceDataError, OSError, ValueError, KeyError):
+            done = []
+    done_set = set(done)
+    todo = [f for f in files if str(f.relative_to(source)) not in done_set]
+
+    def checkpoint() -> None:
+        save(Reference(manifest={"name": name, "partial": True}, patterns=patterns, lemmas=lemmas), partial)
+        state_path.write_text(json.dumps({"key": key, "done": done, "totals": totals}), encoding="utf-8")
+
+    def finish(f: Path) -> None:
+        totals["documents"] += 1
+        done.append(str(f.relative_to(source)))
+        if progress:
+            progress(BuildProgress(len(files), len(done)))
+        if len(done) % checkpoint_every == 0 and len(done) < len(files):
+            checkpoint()
+
+    if fmt == "text":
+        def stream() -> Iterator[tuple[str, tuple[int, bool]]]:
+            for i, f in enumerate(todo):
+                pieces = list(_chunks(f.read_text(encoding="utf-8", errors="replace"))) or [""]
+                for j, piece in enumerate(pieces):
+                    yield piece, (i, j == len(pieces) - 1)
+
+        # One pipe over all files keeps worker processes alive; order is preserved,
+        # so a file is complete when its last piece comes back.
+        for doc, (i, last) in nlp.pipe(stream(), as_tuples=True, batch_size=8, n_process=max(1, processes)):
+            w, s = count_doc(doc, patterns, lemmas)
+            totals["words"] += w
+            totals["sentences"] += s
+            if last:
+                finish(todo[i])
+    else:
+        from .conllu import count_conllu
+
+        for f in todo:
+            w, s = count_conllu(f, patterns, lemmas)
+            totals["words"] += w
+            totals["sentences"] += s
+            finish(f)
+    manifest = {
+        "name": name,
+        "source": description or f"{fmt} files under {source.name}/",
+        "licence": licence,
+        "limits": limits,
+        "format": fmt,
+        **totals,
+        **model_desc,
+        "extractor_version": EXTRACTOR_VERSION,
+        "build_date": build_date or _dt.date.today().isoformat(),
+    }
+    path = save(Reference(manifest=manifest, patterns=patterns, lemmas=lemmas), out)
+    if partial.exists():
+        shutil.rmtree(partial)
+    return path
