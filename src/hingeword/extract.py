@@ -43,7 +43,7 @@ MULTIWORD: tuple[tuple[str, ...], ...] = tuple(
                 "by means of", "on behalf of", "in case of", "as a result of", "with regard to",
                 "in charge of", "because of", "instead of", "according to", "due to", "out of",
                 "apart from", "next to", "thanks to", "prior to", "regardless of", "ahead of",
-                "away from", "close to", "up to",
+                "away from", "up to",
             )
         ),
         key=lambda s: (-len(s), s),
@@ -100,6 +100,22 @@ def repaired_pos(token) -> str:
     return pos
 
 
+def governor_of(head):
+    """The governor a preposition belongs to, after two structural repairs.
+
+    Rule 2 (copula): a preposition the parser hangs on copular "be" (AUX) while
+    an adjective complement sits between them belongs to the adjective: "She is
+    very good *at* maths", "I was afraid *about* it" → good/afraid.
+    Returns ``None`` when there is no governor of a countable POS.
+    """
+    if head.pos_ == "AUX":
+        comps = [c for c in head.children if c.dep_ == "acomp" and c.pos_ == "ADJ"]
+        if comps:
+            return comps[0]
+        return None
+    return head if repaired_pos(head) in GOVERNOR_POS else None
+
+
 def _multiword_at(doc, i: int) -> tuple[str, ...] | None:
     low = [t.lower_ for t in doc[i : i + 4]]
     for seq in MULTIWORD:
@@ -150,8 +166,8 @@ def extract_doc(doc, essay_id: str = "", writer: str = "") -> list[Attachment]:
             if not (span[-1].dep_ in PREP_DEPS and span[-1].head.i not in inside):
                 continue
         consumed |= inside
-        gov = heads[0]
-        if repaired_pos(gov) in GOVERNOR_POS:
+        gov = governor_of(heads[0])
+        if gov is not None:
             out.append(_make(doc, gov, span[0], span[-1], " ".join(seq), "multiword", essay_id, writer))
     for tok in doc:
         if tok.i in consumed:
@@ -160,14 +176,27 @@ def extract_doc(doc, essay_id: str = "", writer: str = "") -> list[Attachment]:
         if head.i == tok.i:
             continue
         dep = tok.dep_
-        if dep in PREP_DEPS or (dep == "dative" and tok.tag_ == "IN"):
-            if tok.tag_ == "TO" and dep not in ("prep", "dative", "prt"):
+        relation = dep
+        if dep == "conj" and tok.pos_ == "ADP" and head.dep_ in PREP_DEPS:
+            # Rule 3: "in music and in art" — a coordinated preposition counts for
+            # the governor of the first one.
+            relation, head = head.dep_, head.head
+        elif dep == "advmod" and tok.pos_ == "ADP" and tok.tag_ == "RP" or (
+            dep == "advmod" and tok.pos_ == "ADP" and not any(c.dep_ == "pobj" for c in tok.children)
+            and head.pos_ == "VERB" and tok.i == head.i + 1
+        ):
+            # Rule 4: "go out" with the particle labelled advmod: a preposition
+            # right after its verb with no object of its own is a particle.
+            relation = "prt"
+        if relation in PREP_DEPS or (dep == "dative" and tok.tag_ == "IN"):
+            if tok.tag_ == "TO" and relation not in ("prep", "dative", "prt"):
                 continue
             word = tok.lower_
             if not word.isalpha() or word in _EXCLUDED_PREPS:
                 continue
-            if repaired_pos(head) in GOVERNOR_POS:
-                out.append(_make(doc, head, tok, tok, word, dep, essay_id, writer))
+            gov = governor_of(head)
+            if gov is not None:
+                out.append(_make(doc, gov, tok, tok, word, relation, essay_id, writer))
         elif dep == "dobj" and repaired_pos(head) == "VERB":
             out.append(_make(doc, head, tok, tok, NO_PREP, "dobj", essay_id, writer))
     out.sort(key=lambda a: (a.gov_start, a.prep_start, a.preposition))
