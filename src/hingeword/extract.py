@@ -56,7 +56,8 @@ class Attachment:
     """One governor–preposition instance in one essay.
 
     Character offsets index the essay text (``Doc.text``). For the ``-`` slot the
-    preposition offsets span the direct object's head word.
+    preposition offsets span the direct object from its first word to its head
+    ("listen *the radio*").
     """
 
     essay_id: str
@@ -198,7 +199,10 @@ def extract_doc(doc, essay_id: str = "", writer: str = "") -> list[Attachment]:
             if gov is not None:
                 out.append(_make(doc, gov, tok, tok, word, relation, essay_id, writer))
         elif dep == "dobj" and repaired_pos(head) == "VERB":
-            out.append(_make(doc, head, tok, tok, NO_PREP, "dobj", essay_id, writer))
+            # the slot spans the object phrase up to its head ("the radio"), so a
+            # suggested preposition can be inserted at its start
+            first = tok.left_edge if tok.left_edge.i > head.i else tok
+            out.append(_make(doc, head, first, tok, NO_PREP, "dobj", essay_id, writer))
     out.sort(key=lambda a: (a.gov_start, a.prep_start, a.preposition))
     return out
 

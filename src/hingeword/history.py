@@ -276,6 +276,26 @@ class Workspace:
         ).fetchall()
         return [json.loads(r[0]) for r in rows]
 
+    def writer_codes(self, class_name: str) -> dict[str, str]:
+        """Stable pseudonyms for a class: "S01", "S02", … in order of first appearance.
+
+        Runs are taken in term order, writers within a run alphabetically, so the
+        codes of earlier terms never change when a later term is added.
+        """
+        codes: dict[str, str] = {}
+        for run in self.runs_in_order(class_name):
+            for (writer,) in self.conn.execute(
+                "SELECT DISTINCT writer FROM essays WHERE run_id = ? ORDER BY writer", (run["id"],)
+            ):
+                if writer not in codes:
+                    codes[writer] = f"S{len(codes) + 1:02d}"
+        return codes
+
+    def runs_in_order(self, class_name: str) -> list[sqlite3.Row]:
+        """A class's runs in term order (term start date recorded in the run settings, then creation)."""
+        rows = self.runs(class_name)
+        return sorted(rows, key=lambda r: (json.loads(r["settings"]).get("term_start") or "", r["created"], r["term"]))
+
     def count_rows(self) -> dict[str, int]:
         tables = [r[0] for r in self.conn.execute("SELECT name FROM sqlite_master WHERE type='table' ORDER BY name")]
         return {t: self.conn.execute(f"SELECT COUNT(*) FROM {t}").fetchone()[0] for t in tables}
