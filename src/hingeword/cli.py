@@ -71,7 +71,11 @@ def scan(
     measure: str = typer.Option("oe", "--measure", help="Score of the collocation ratio: oe, mi or logdice."),
     term_start: Optional[str] = typer.Option(None, "--term-start", help="First day of the term, YYYY-MM-DD (orders terms; default: today)."),
     l1: Optional[str] = typer.Option(None, "--l1", help="Learners' first language (ISO 639-1) when the manifest has none."),
+    rules: list[Path] = typer.Option([], "--rules", help="Extra rules folder overlaying the bundled rules (repeatable)."),
     top: int = typer.Option(10, "--top", min=0, help="How many patterns to list."),
+    report: bool = typer.Option(False, "--report", help="Also write the handouts, overview and student sheets."),
+    out_dir: Path = typer.Option(Path("hingeword-reports"), "--out", help="Folder for reports (with --report)."),
+    names: str = typer.Option("pseudonyms", "--names", help="pseudonyms (default) or real."),
     quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bar."),
 ):
     """Scan a folder of essays for one class and term, and store the run."""
@@ -89,11 +93,40 @@ def scan(
             result = run_scan(
                 essays, class_name=class_name, term=term, workspace=workspace, manifest=manifest, model=model,
                 processes=processes, references=reference, settings=settings, term_start=term_start, l1=l1,
-                progress=lambda done, total: bar.update(task, completed=done, total=total),
+                rules_dirs=rules, progress=lambda done, total: bar.update(task, completed=done, total=total),
             )
     except HingewordError as exc:
         _fail(str(exc))
     print_scan_summary(result, top)
+    if report:
+        _write_reports(workspace, class_name, term, out_dir, top=5, names=names)
+
+
+def _write_reports(workspace: Path, class_name: str, term: str, out_dir: Path, *, top: int, names: str) -> None:
+    from .history import Workspace
+    from .report import write_reports
+
+    if names not in ("pseudonyms", "real"):
+        _fail(f"--names must be 'pseudonyms' or 'real', not '{names}'", 2)
+    try:
+        with Workspace(workspace, create=False) as ws:
+            paths = write_reports(ws, class_name, term, out_dir, top=top, names=names)
+    except HingewordError as exc:
+        _fail(str(exc))
+    out.print(f"reports written to {paths.folder}; open {paths.handout} first", markup=False)
+
+
+@app.command()
+def report(
+    class_name: str = ClassOpt,
+    term: str = TermOpt,
+    workspace: Path = WorkspaceOpt,
+    out_dir: Path = typer.Option(Path("hingeword-reports"), "--out", help="Folder to write into."),
+    top: int = typer.Option(5, "--top", min=1, help="Patterns on the class handout."),
+    names: str = typer.Option("pseudonyms", "--names", help="pseudonyms (default) or real."),
+):
+    """Write the class handout (with teacher copy), teacher overview, student sheets and patterns.csv."""
+    _write_reports(workspace, class_name, term, out_dir, top=top, names=names)
 
 
 def print_scan_summary(result, top: int) -> None:
@@ -118,6 +151,12 @@ def print_scan_summary(result, top: int) -> None:
         out.print("Over-used (candidates for your judgement, not verdicts):")
         for line in pattern_lines(flagged.head(top)):
             out.print("  " + line, markup=False)
+        by_key = {(f["governor"], f["governor_pos"], f["preposition"]): f for f in result.figures}
+        out.print("Likely reasons and native use:")
+        for r in flagged.head(top).itertuples():
+            f = by_key.get((r.governor, r.governor_pos, r.preposition), {})
+            out.print(f"  {r.governor} + {r.preposition}: {f.get('cause', '')} → {f.get('suggestion', '')} "
+                      f"— {f.get('explanation', '')}", markup=False)
     under = df[df.status == "under-used"]
     if len(under):
         out.print("Under-used (native patterns the class avoids):")

@@ -100,7 +100,39 @@ MIGRATIONS: list[tuple[str, str]] = [
         );
         """,
     ),
+    (
+        "0002_terms_links_decisions",
+        """
+        ALTER TABLE runs ADD COLUMN term_start TEXT;
+        UPDATE runs SET term_start = COALESCE(json_extract(settings, '$.term_start'), substr(created, 1, 10));
+        CREATE TABLE class_links (
+            old TEXT NOT NULL,
+            new TEXT NOT NULL,
+            created TEXT NOT NULL,
+            PRIMARY KEY (old, new)
+        );
+        CREATE TABLE decisions (
+            scope TEXT NOT NULL,
+            governor TEXT NOT NULL,
+            preposition TEXT NOT NULL,
+            reason TEXT NOT NULL,
+            decided_on TEXT NOT NULL,
+            PRIMARY KEY (scope, governor, preposition)
+        );
+        CREATE TABLE decision_log (
+            scope TEXT NOT NULL,
+            governor TEXT NOT NULL,
+            preposition TEXT NOT NULL,
+            action TEXT NOT NULL,
+            reason TEXT NOT NULL,
+            decided_on TEXT NOT NULL
+        );
+        """,
+    ),
 ]
+
+#: scope of a decision that applies to every class
+ALL_CLASSES = "*"
 
 
 def schema_version() -> int:
@@ -193,9 +225,10 @@ class Workspace:
         try:
             c.execute("DELETE FROM runs WHERE class = ? AND term = ?", (class_name, term))
             cols = ("class", "term", "created", "tool_version", "model", "model_version", "extractor_version",
-                    "source", "essays_read", "essays_skipped", "words", "settings", "reference")
+                    "source", "essays_read", "essays_skipped", "words", "settings", "reference", "term_start")
             row = {"class": class_name, "term": term, "created": run_meta.get("created") or _now(),
                    "essays_read": len(essays), "essays_skipped": len(skipped), **run_meta}
+            row["term_start"] = row.get("settings", {}).get("term_start") or row["created"][:10]
             row["settings"] = json.dumps(row.get("settings", {}), sort_keys=True)
             row["reference"] = json.dumps(row.get("reference", {}), sort_keys=True)
             cur = c.execute(
@@ -292,9 +325,145 @@ class Workspace:
         return codes
 
     def runs_in_order(self, class_name: str) -> list[sqlite3.Row]:
-        """A class's runs in term order (term start date recorded in the run settings, then creation)."""
-        rows = self.runs(class_name)
-        return sorted(rows, key=lambda r: (json.loads(r["settings"]).get("term_start") or "", r["created"], r["term"]))
+        """The runs of a class and of every class linked to it, in term order.
+
+        Order key: the term's start date (``--term-start``), then creation time.
+        """
+        group = sorted(self.class_group(class_name))
+        marks = ", ".join("?" * len(group))
+        return self.conn.execute(
+            f"SELECT * FROM runs WHERE class IN ({marks}) ORDER BY term_start, created, term", group
+        ).fetchall()
+
+    # ----------------------------------------------------------- class links
+    def link_classes(self, old: str, new: str) -> None:
+        """Record that class ``new`` continues class ``old`` (same group of students)."""
+        if old == new:
+            raise WorkspaceError("a class cannot be linked to itself")
+        with self._tx():
+            self.conn.execute("INSERT OR IGNORE INTO class_links VALUES (?, ?, ?)", (old, new, _now()))
+
+    def class_group(self, class_name: str) -> set[str]:
+        """The class and all classes linked to it, directly or through others."""
+        links = self.conn.execute("SELECT old, new FROM class_links").fetchall()
+        group, changed = {class_name}, True
+        while changed:
+            changed = False
+            for old, new in links:
+                if (old in group) != (new in group):
+                    group |= {old, new}
+                    changed = True
+        return group
+
+    # -------------------------------------------------------------- decisions
+    def _tx(self):
+        ws = self
+
+        class _Tx:
+            def __enter__(self_):
+                ws.conn.execute("BEGIN IMMEDIATE")
+
+            def __exit__(self_, exc_type, *rest):
+                ws.conn.execute("ROLLBACK" if exc_type else "COMMIT")
+                return False
+
+        return _Tx()
+
+    def dismiss(self, governor: str, preposition: str, *, class_name: str | None, reason: str, on: str | None = None) -> None:
+        """Dismiss a pattern for one class (or all classes: ``class_name=None``); persists across terms."""
+        scope = class_name or ALL_CLASSES
+        day = on or _dt.date.today().isoformat()
+        with self._tx():
+            self.conn.execute("INSERT OR REPLACE INTO decisions VALUES (?, ?, ?, ?, ?)",
+                              (scope, governor.lower(), preposition.lower(), reason, day))
+            self.conn.execute("INSERT INTO decision_log VALUES (?, ?, ?, 'dismiss', ?, ?)",
+                              (scope, governor.lower(), preposition.lower(), reason, day))
+
+    def restore(self, governor: str, preposition: str, *, class_name: str | None, on: str | None = None) -> bool:
+        """Undo a dismissal; returns False when there was none."""
+        scope = class_name or ALL_CLASSES
+        day = on or _dt.date.today().isoformat()
+        with self._tx():
+            cur = self.conn.execute("DELETE FROM decisions WHERE scope = ? AND governor = ? AND preposition = ?",
+                                    (scope, governor.lower(), preposition.lower()))
+            if cur.rowcount:
+                self.conn.execute("INSERT INTO decision_log VALUES (?, ?, ?, 'restore', '', ?)",
+                                  (scope, governor.lower(), preposition.lower(), day))
+        return bool(cur.rowcount)
+
+    def decisions_for(self, class_name: str) -> dict[tuple[str, str], sqlite3.Row]:
+        """Active dismissals that apply to a class (its own, its group's, and all-class ones)."""
+        scopes = sorted(self.class_group(class_name)) + [ALL_CLASSES]
+        marks = ", ".join("?" * len(scopes))
+        rows = self.conn.execute(f"SELECT * FROM decisions WHERE scope IN ({marks}) ORDER BY decided_on", scopes)
+        return {(r["governor"], r["preposition"]): r for r in rows}
+
+    # -------------------------------------------------------- figures in context
+    def figures_in_context(self, class_name: str, term: str) -> list[dict]:
+        """A run's figures with the teacher's decisions and a "since last term" line.
+
+        Adds ``dismissed``, ``dismissed_reason``, ``dismissed_on``, ``since_last_term``,
+        ``rate`` (instances per 10,000 words) and ``previous_rate``.
+        """
+        run = self.run(class_name, term)
+        figures = self.figures(run["id"])
+        decisions = self.decisions_for(class_name)
+        order = [r["id"] for r in self.runs_in_order(class_name)]
+        prev_id = order[order.index(run["id"]) - 1] if run["id"] in order and order.index(run["id"]) > 0 else None
+        prev = {}
+        prev_words = 0
+        if prev_id is not None:
+            prev_run = self.conn.execute("SELECT * FROM runs WHERE id = ?", (prev_id,)).fetchone()
+            prev_words = prev_run["words"]
+            prev = {(f["governor"], f["governor_pos"], f["preposition"]): f for f in self.figures(prev_id)}
+        for f in figures:
+            d = decisions.get((f["governor"], f["preposition"]))
+            f["dismissed"] = d is not None
+            f["dismissed_reason"] = d["reason"] if d else ""
+            f["dismissed_on"] = d["decided_on"] if d else ""
+            f["rate"] = per_10k(f["learner_count"], run["words"])
+            p = prev.get((f["governor"], f["governor_pos"], f["preposition"]))
+            f["previous_rate"] = per_10k(p["learner_count"], prev_words) if p else (0.0 if prev_id else None)
+            f["since_last_term"] = since_line(f, p, prev_id is not None, f["previous_rate"])
+        return figures
+
+    def writer_progress(self, class_name: str, term: str, keys: Iterable[tuple[str, str, str]],
+                        same_writer: dict[str, str] | None = None) -> dict[str, list[dict]]:
+        """For each writer of this run: their counts of ``keys`` last term and this term.
+
+        :param same_writer: optional map writer id -> writer id of the same person in
+            earlier terms (from fuzzy matching); exact ids match without it.
+        """
+        run = self.run(class_name, term)
+        order = [r["id"] for r in self.runs_in_order(class_name)]
+        idx = order.index(run["id"])
+        if idx == 0:
+            return {}
+        prev_id = order[idx - 1]
+        keys = list(keys)
+
+        def counts(run_id: int) -> dict[str, dict]:
+            out: dict[str, dict] = {}
+            for a in self.attachments(run_id):
+                if a.key in keys:
+                    out.setdefault(a.writer, {}).setdefault(a.key, 0)
+                    out[a.writer][a.key] += 1
+            return out
+
+        now, before = counts(run["id"]), counts(prev_id)
+        prev_writers = {r["writer"] for r in self.conn.execute("SELECT writer FROM essays WHERE run_id = ?", (prev_id,))}
+        result: dict[str, list[dict]] = {}
+        for (writer,) in self.conn.execute("SELECT DISTINCT writer FROM essays WHERE run_id = ? ORDER BY writer", (run["id"],)):
+            earlier = (same_writer or {}).get(writer, writer)
+            if earlier not in prev_writers:
+                continue
+            rows = []
+            for k in keys:
+                a, b = before.get(earlier, {}).get(k, 0), now.get(writer, {}).get(k, 0)
+                if a or b:
+                    rows.append({"governor": k[0], "governor_pos": k[1], "preposition": k[2], "last_term": a, "this_term": b})
+            result[writer] = rows
+        return result
 
     def count_rows(self) -> dict[str, int]:
         tables = [r[0] for r in self.conn.execute("SELECT name FROM sqlite_master WHERE type='table' ORDER BY name")]
@@ -302,6 +471,22 @@ class Workspace:
 
     def integrity(self) -> str:
         return self.conn.execute("PRAGMA integrity_check").fetchone()[0]
+
+
+def per_10k(count: int, words: int) -> float:
+    """Instances per 10,000 words (0 when there are no words)."""
+    return round(10_000 * count / words, 2) if words else 0.0
+
+
+def since_line(f: dict, prev: dict | None, has_previous: bool, prev_rate: float | None) -> str:
+    """One short line comparing a pattern with the previous term of the class."""
+    if not has_previous:
+        return "first term on record"
+    if prev is None or not prev.get("learner_count"):
+        return "new this term" if f.get("learner_count") else "not seen this term or last"
+    if prev.get("flagged"):
+        return f"also flagged last term ({prev_rate:.1f} → {f['rate']:.1f} per 10,000 words)"
+    return f"seen last term but not flagged ({prev_rate:.1f} → {f['rate']:.1f} per 10,000 words)"
 
 
 def _statements(sql: str) -> list[str]:

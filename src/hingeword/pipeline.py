@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import datetime as _dt
 import logging
+from collections import Counter, defaultdict
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -32,6 +33,7 @@ class ScanResult:
     parse_stats: ParseStats
     attachments: int
     patterns: object  # pandas DataFrame of scored patterns
+    figures: list = field(default_factory=list)  # scored rows with causes, as stored
     typo_groups: dict = field(default_factory=dict)
     reference_name: str = ""
     settings: dict = field(default_factory=dict)
@@ -60,6 +62,7 @@ def scan(
     settings: dict | None = None,
     term_start: str | None = None,
     l1: str | None = None,
+    rules_dirs: Sequence[str | Path] = (),
     progress: Callable[[int, int], None] | None = None,
 ) -> ScanResult:
     """Scan one class's essays for one term and store the run in the workspace.
@@ -68,9 +71,12 @@ def scan(
     :param progress: called as ``progress(done, total)`` while parsing.
     """
     from . import reference as ref_mod
+    from .causes import categorise_figures
+    from .rules import load_rules
     from .score import score_run
 
     ingest = read_essays(folder, manifest=manifest)
+    rules = load_rules([Path(d) for d in rules_dirs])
     reference = ref_mod.load_many(references, workspace)
     nlp, info = load_model(model)
     ws = Workspace(workspace)
@@ -94,6 +100,12 @@ def scan(
         attachments = regroup_typos(attachments, groups)
         counts = count_patterns(attachments)
         scored, used = score_run(counts, attachments, ingest.essays, reference, settings or {})
+        l1_of = {e.writer: (e.l1 or l1 or "").strip().lower() for e in ingest.essays}
+        l1_by_pattern: dict = defaultdict(Counter)
+        for a in attachments:
+            if l1_of.get(a.writer):
+                l1_by_pattern[a.key][l1_of[a.writer]] += 1
+        figures = categorise_figures(scored.to_dict("records"), reference, rules, l1_by_pattern)
         run_settings = {**used, "term_start": term_start or _dt.date.today().isoformat(), "l1": l1}
         run_meta = {
             "tool_version": __version__,
@@ -106,6 +118,7 @@ def scan(
             "reference": reference.manifest,
         }
         notes = ingest_notes(ingest)
+        notes += [("rules", str(p)) for p in rules.problems]
         notes += [("typo", f"'{k[0]}' ({k[1]}) grouped under '{v}'") for k, v in sorted(groups.items())]
         ref_model = str(reference.manifest.get("model", ""))
         if ref_model and ref_model != info.name and not ref_model.startswith("gold") and "," not in ref_model:
@@ -118,12 +131,12 @@ def scan(
             skipped=ingest.skipped,
             notes=notes,
             attachments=attachments,
-            pattern_figures=scored.to_dict("records"),
+            pattern_figures=figures,
         )
     finally:
         ws.close()
     return ScanResult(
         run_id=run_id, class_name=class_name, term=term, model=info, ingest=ingest, parse_stats=stats,
-        attachments=len(attachments), patterns=scored, typo_groups=groups, reference_name=reference.name,
+        attachments=len(attachments), patterns=scored, figures=figures, typo_groups=groups, reference_name=reference.name,
         settings=run_settings,
     )

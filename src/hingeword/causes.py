@@ -1,0 +1,203 @@
+"""Categorise stage: likely causes of an over-used pattern, and the native suggestion.
+
+For a flagged pattern (governor *g*, POS, preposition *p*) each candidate cause
+is looked up in the reference (never invented) and scored with a confidence in
+[0, 1]:
+
+``noun-pattern``
+    a noun derived from *g* (WordNet, ``rules/wordnet/derived_nouns.tsv``; also
+    the same-form noun) takes *p*: "discuss about" ← "a discussion about".
+``related-word``
+    a synonym, similar adjective, antonym or "also see" neighbour of *g*
+    (``related_words.tsv``) takes *p*: "afraid about" ← "concerned about".
+``directional``
+    *p* is directional (``rules/directional.tsv``: into, onto, to, towards …) and
+    native writers use the static partner or no preposition with *g*:
+    "involved into" ← "involved in", "enter into the room" ← "enter the room".
+``l1-transfer``
+    a teacher-written note for the writers' first language (``rules/l1/``)
+    describes this very pattern.
+``unclear``
+    none of the above has evidence.
+
+Confidence of a lexical cause = share × c/(c+3), where share = c/n is how often
+the related word takes *p* in the reference (c of its n attachments): high shares
+backed by few examples are damped. Directional confidence = native share of the
+static alternative × the same damping. L1 confidence = 0.9 × the fraction of the
+pattern's instances written by writers with that first language. A lexical
+candidate needs c ≥ 2 and share ≥ 5 %; directional needs share ≥ 20 %.
+"""
+
+from __future__ import annotations
+
+from collections import Counter, defaultdict
+from collections.abc import Mapping, Sequence
+from dataclasses import asdict, dataclass
+
+from .extract import NO_PREP
+from .rules import Rules
+
+LABELS = {
+    "noun-pattern": "carried over from a related noun",
+    "related-word": "by analogy with a related word",
+    "directional": "a movement preposition where English uses a place word or none",
+    "l1-transfer": "carried over from the first language",
+    "unclear": "no clear reason in the reference or the rules",
+}
+MIN_LEXICAL_COUNT = 2
+MIN_LEXICAL_SHARE = 0.05
+MIN_DIRECTIONAL_SHARE = 0.20
+L1_WEIGHT = 0.9
+#: related-word relations, in the order they are tried
+_RELATIONS = ("synonym", "similar", "antonym", "also_see")
+
+
+@dataclass(frozen=True)
+class Cause:
+    code: str
+    confidence: float
+    evidence: str
+    label: str
+
+
+def _damp(c: float) -> float:
+    return c / (c + 3.0)
+
+
+def _slot(prep: str) -> str:
+    return "a direct object" if prep == NO_PREP else f"'{prep}'"
+
+
+class Categoriser:
+    """Holds the reference tables and rules; :meth:`categorise` one pattern at a time."""
+
+    def __init__(self, reference, rules: Rules):
+        self.ref = reference
+        self.rules = rules
+        self.gov_totals = reference.governor_totals()
+        self.slots: dict[tuple[str, str], Counter] = defaultdict(Counter)
+        for (g, pos, prep), n in reference.patterns.items():
+            self.slots[(g, pos)][prep] += n
+
+    # --------------------------------------------------------------- native use
+    def share(self, g: str, pos: str, prep: str) -> tuple[int, int]:
+        """(count, governor total) of a pattern in the reference."""
+        return self.ref.patterns.get((g, pos, prep), 0), self.gov_totals.get((g, pos), 0)
+
+    def suggestion(self, g: str, pos: str, avoid: str) -> tuple[str, float, int] | None:
+        """The slot native writers use most with ``g`` (other than ``avoid``): (slot, share, count).
+
+        "Highest association" is read as the highest conditional share P(slot | g):
+        MI and logDice penalise the very frequent direct-object slot, whose column
+        total is large, and would suggest rare prepositions instead.
+        """
+        slots = self.slots.get((g, pos))
+        total = self.gov_totals.get((g, pos), 0)
+        if not slots or total == 0:
+            return None
+        best = sorted(((n, s) for s, n in slots.items() if s != avoid), key=lambda t: (-t[0], t[1]))
+        if not best:
+            return None
+        n, slot = best[0]
+        return slot, n / total, n
+
+    # ------------------------------------------------------------------ causes
+    def _lexical(self, words: Sequence[tuple[str, str, str]], prep: str, code: str) -> list[Cause]:
+        out = []
+        for word, wpos, how in words:
+            c, n = self.share(word, wpos, prep)
+            if c < MIN_LEXICAL_COUNT or n == 0 or c / n < MIN_LEXICAL_SHARE:
+                continue
+            phrase = f"{word} {prep}" if prep != NO_PREP else f"{word} + object"
+            out.append(Cause(code, round((c / n) * _damp(c), 4),
+                             f"'{phrase}' ({how}): {c} of {n} uses of '{word}' in the reference ({100 * c / n:.0f}%)",
+                             LABELS[code]))
+        return out
+
+    def categorise(self, g: str, pos: str, prep: str, l1_counts: Mapping[str, int] | None = None) -> list[Cause]:
+        """Ranked candidate causes (best first); ``[unclear]`` when nothing has evidence."""
+        causes: list[Cause] = []
+        nouns = list(self.rules.derived_nouns.get((g, pos), ()))
+        if pos != "NOUN" and (g, "NOUN") in self.gov_totals and g not in nouns:
+            nouns.append(g)
+        causes += self._lexical([(n, "NOUN", "related noun") for n in nouns], prep, "noun-pattern")
+        related = [(w, pos, rel.replace("_", " ")) for w, rel in self.rules.related.get((g, pos), ())
+                   if rel in _RELATIONS and w != g]
+        causes += self._lexical(related, prep, "related-word")
+        for static in self.rules.directional.get(prep, ()):
+            c, n = self.share(g, pos, static)
+            if n and c / n >= MIN_DIRECTIONAL_SHARE:
+                causes.append(Cause("directional", round((c / n) * _damp(c), 4),
+                                    f"'{prep}' marks movement; native writers use {_slot(static)} with '{g}': "
+                                    f"{c} of {n} uses in the reference ({100 * c / n:.0f}%)", LABELS["directional"]))
+        total = sum((l1_counts or {}).values())
+        for code, k in sorted((l1_counts or {}).items()):
+            for note in self.rules.l1_notes_for(code, g, prep, pos):
+                causes.append(Cause("l1-transfer", round(L1_WEIGHT * k / total, 4),
+                                    f"{k} of {total} uses by writers whose first language is {note.language} ({code}): "
+                                    f"{note.note}", LABELS["l1-transfer"]))
+                break
+        best: dict[str, Cause] = {}
+        for c in causes:  # keep the strongest evidence per cause code
+            if c.code not in best or c.confidence > best[c.code].confidence:
+                best[c.code] = c
+        ranked = sorted(best.values(), key=lambda c: (-c.confidence, c.code))
+        return ranked or [Cause("unclear", 0.0, "no related noun, related word, directional pair or L1 note "
+                                "with evidence in the reference", LABELS["unclear"])]
+
+    # -------------------------------------------------------------- plain words
+    def describe(self, g: str, pos: str, prep: str, causes: Sequence[Cause]) -> dict:
+        """Suggestion fields and a short explanation a learner understands."""
+        sug = self.suggestion(g, pos, prep)
+        if sug is None:
+            return {"suggestion": "", "suggested_preposition": "", "suggestion_share": None,
+                    "native_pattern": "", "explanation": "The reference has too few examples of this word to say more."}
+        slot, share, _ = sug
+        thing = "something" if pos != "NOUN" else "something"
+        native = f"{g} {thing}" if slot == NO_PREP else f"{g} {slot} {thing}"
+        written = f"{g} {thing}" if prep == NO_PREP else f"{g} {prep} {thing}"
+        if pos == "ADJ":
+            native, written = f"be {native}", f"be {written}"
+        suggestion = f"{g} + direct object" if slot == NO_PREP else f"{g} {slot}"
+        top = causes[0] if causes else None
+        if slot == NO_PREP and prep != NO_PREP:
+            text = f"We {native}: no '{prep}'."
+        elif prep == NO_PREP:
+            text = f"We say '{native}': the '{slot}' is needed."
+        else:
+            text = f"We say '{native}', not '{written}'."
+        if top is not None and top.code == "noun-pattern" and prep != NO_PREP:
+            noun = top.evidence.split("'")[1].rsplit(" ", 1)[0]
+            text += f" But: a {noun} {prep} something."
+        elif top is not None and top.code == "related-word" and prep != NO_PREP:
+            other = top.evidence.split("'")[1]
+            text += f" ('{other}' is right, but '{g}' is different.)"
+        elif top is not None and top.code == "directional":
+            text += f" '{prep}' shows movement; here English does not."
+        return {"suggestion": suggestion, "suggested_preposition": slot, "suggestion_share": round(share, 4),
+                "native_pattern": native, "explanation": text}
+
+
+def categorise_figures(figures: list[dict], reference, rules: Rules, l1_by_pattern: Mapping[tuple, Counter]) -> list[dict]:
+    """Add cause and suggestion fields to flagged and under-used figure rows (in place; returned)."""
+    cat = Categoriser(reference, rules)
+    for f in figures:
+        key = (f["governor"], f["governor_pos"], f["preposition"])
+        if not (f.get("flagged") or f.get("status") == "under-used"):
+            f.update({"cause": "", "cause_label": "", "causes": [], "suggestion": "", "suggested_preposition": "",
+                      "suggestion_share": None, "native_pattern": "", "explanation": ""})
+            continue
+        if not f.get("flagged"):  # under-used: the native pattern the class avoids
+            g, pos, prep = key
+            native = f"{g} something" if prep == NO_PREP else f"{g} {prep} something"
+            f.update({"cause": "", "cause_label": "", "causes": [], "suggested_preposition": prep,
+                      "suggestion": f"{g} + direct object" if prep == NO_PREP else f"{g} {prep}",
+                      "suggestion_share": f.get("reference_share"), "native_pattern": native,
+                      "explanation": f"Native writers use '{native}' much more often than this class does."})
+            continue
+        causes = cat.categorise(*key, l1_counts=l1_by_pattern.get(key))
+        f.update(cat.describe(*key, causes))
+        f["cause"] = causes[0].code if causes else ""
+        f["cause_label"] = causes[0].label if causes else ""
+        f["causes"] = [asdict(c) for c in causes]
+    return figures
