@@ -228,6 +228,127 @@ def concordance(
     err.print(f"{len(atts)} lines")
 
 
+@app.command()
+def trends(
+    class_name: str = ClassOpt,
+    workspace: Path = WorkspaceOpt,
+    out_dir: Optional[Path] = typer.Option(None, "--out", help="Also write trends.html (with charts) into this folder."),
+    match_writers: bool = typer.Option(False, "--match-writers", help="Propose fuzzy matches of writer names across terms."),
+):
+    """Show per term what recurs, what is new, what is fading and what has gone."""
+    from .history import Workspace
+    from .trends import MATCH_THRESHOLD, compute_trends, text_table, writer_matches
+
+    try:
+        with Workspace(workspace, create=False) as ws:
+            tr = compute_trends(ws, class_name)
+            for line in text_table(tr):
+                out.print(line, markup=False)
+            if match_writers:
+                out.print(f"Proposed writer matches (name similarity ≥ {MATCH_THRESHOLD:.0f}; please check):")
+                found = False
+                for t in tr.terms:
+                    for cur, prev, score in writer_matches(ws, t["class"], t["term"]):
+                        found = True
+                        out.print(f"  {t['term']}: '{cur}' = '{prev}' ({score:.0f})", markup=False)
+                if not found:
+                    out.print("  none")
+            if out_dir is not None:
+                from .report import write_trends
+
+                path = write_trends(ws, class_name, out_dir, match=match_writers)
+                out.print(f"wrote {path}", markup=False)
+    except HingewordError as exc:
+        _fail(str(exc))
+
+
+ScopeClass = typer.Option(None, "--class", help="The class the decision applies to.")
+AllClasses = typer.Option(False, "--all-classes", help="Apply to every class.")
+
+
+def _scope(class_name: Optional[str], all_classes: bool) -> Optional[str]:
+    if bool(class_name) == bool(all_classes):
+        _fail("give either --class NAME or --all-classes", 2)
+    return None if all_classes else class_name
+
+
+@app.command()
+def dismiss(
+    governor: str = typer.Argument(..., help="Governor lemma, e.g. 'discuss'."),
+    preposition: str = typer.Argument(..., help="Preposition, or - for a direct object."),
+    class_name: Optional[str] = ScopeClass,
+    all_classes: bool = AllClasses,
+    reason: str = typer.Option(..., "--reason", help="Why (shown in the teacher overview)."),
+    workspace: Path = WorkspaceOpt,
+):
+    """Dismiss a flagged pattern: it leaves the handouts and stays listed in the overview."""
+    from .history import Workspace
+
+    scope = _scope(class_name, all_classes)
+    try:
+        with Workspace(workspace, create=False) as ws:
+            ws.dismiss(governor, preposition, class_name=scope, reason=reason)
+    except HingewordError as exc:
+        _fail(str(exc))
+    out.print(f"dismissed '{governor} + {preposition}' for {scope or 'all classes'}: {reason}", markup=False)
+
+
+@app.command()
+def restore(
+    governor: str = typer.Argument(..., help="Governor lemma."),
+    preposition: str = typer.Argument(..., help="Preposition, or -."),
+    class_name: Optional[str] = ScopeClass,
+    all_classes: bool = AllClasses,
+    workspace: Path = WorkspaceOpt,
+):
+    """Undo a dismissal."""
+    from .history import Workspace
+
+    scope = _scope(class_name, all_classes)
+    try:
+        with Workspace(workspace, create=False) as ws:
+            done = ws.restore(governor, preposition, class_name=scope)
+    except HingewordError as exc:
+        _fail(str(exc))
+    if not done:
+        _fail(f"'{governor} + {preposition}' was not dismissed for {scope or 'all classes'}")
+    out.print(f"restored '{governor} + {preposition}' for {scope or 'all classes'}", markup=False)
+
+
+@app.command("link-classes")
+def link_classes(
+    old: str = typer.Argument(..., help="Earlier class name."),
+    new: str = typer.Argument(..., help="Class name that continues it."),
+    workspace: Path = WorkspaceOpt,
+):
+    """Group two classes (the same students under a new class name) for trends and decisions."""
+    from .history import Workspace
+
+    try:
+        with Workspace(workspace, create=False) as ws:
+            ws.link_classes(old, new)
+    except HingewordError as exc:
+        _fail(str(exc))
+    out.print(f"linked {old} → {new}", markup=False)
+
+
+@app.command()
+def demo(
+    workspace: Optional[Path] = typer.Option(None, "--workspace", "-w", help="Workspace folder (default: a fresh temporary one)."),
+    out_dir: Path = typer.Option(Path("hingeword-demo"), "--out", help="Folder for the demo's reports."),
+    quiet: bool = typer.Option(False, "--quiet", "-q"),
+):
+    """Run the invented demo: two classes, three terms each, end to end."""
+    from .demo import run_demo
+
+    try:
+        summary = run_demo(workspace=workspace, out_dir=out_dir, log=None if quiet else lambda m: err.print(m, markup=False))
+    except HingewordError as exc:
+        _fail(str(exc))
+    for line in summary:
+        out.print(line, markup=False)
+
+
 # ------------------------------------------------------------------ reference
 
 
