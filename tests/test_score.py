@@ -1,0 +1,123 @@
+"""Scoring: flags, statuses and their invariants.
+
+The classes and reference counts below are invented for the tests.
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from hingeword.extract import Attachment
+from hingeword.patterns import count_patterns
+from hingeword.reference import Reference
+from hingeword.score import CONTRACT, DEFAULTS, score_patterns
+
+
+def att(writer: str, gov: str, prep: str, pos: str = "VERB") -> Attachment:
+    return Attachment(essay_id=f"{writer}.txt", writer=writer, governor=gov, governor_pos=pos, governor_text=gov,
+                      preposition=prep, relation="prep", sentence="x", sentence_start=0, gov_start=0, gov_end=1,
+                      prep_start=2, prep_end=3)
+
+
+def reference(extra: dict | None = None) -> Reference:
+    counts = Counter({
+        ("discuss", "VERB", "-"): 280, ("discuss", "VERB", "with"): 15, ("discuss", "VERB", "in"): 5,
+        ("depend", "VERB", "on"): 180, ("depend", "VERB", "upon"): 20,
+        ("talk", "VERB", "about"): 150, ("talk", "VERB", "to"): 100, ("talk", "VERB", "with"): 50,
+        ("go", "VERB", "to"): 900, ("go", "VERB", "out"): 100,
+        ("rare", "ADJ", "in"): 3,
+    })
+    counts.update(extra or {})
+    return Reference(manifest={"name": "invented"}, patterns=counts)
+
+
+def planted_class() -> list[Attachment]:
+    """Five writers write "discuss about"; one writer repeats "depend of" six times."""
+    out = []
+    for i, w in enumerate(["ana", "ben", "chen", "dina", "emre"]):
+        out += [att(w, "discuss", "about"), att(w, "discuss", "-"), att(w, "talk", "about"), att(w, "go", "to")]
+        out += [att(w, "depend", "on")]
+    out += [att("ana", "depend", "of") for _ in range(6)]
+    return out
+
+
+def scored(atts, ref=None, **settings):
+    return score_patterns(count_patterns(atts), atts, ref or reference(), settings)
+
+
+def row(df, gov, prep):
+    sub = df[(df.governor == gov) & (df.preposition == prep)]
+    assert len(sub) == 1, f"{gov} + {prep} not in result"
+    return sub.iloc[0]
+
+
+def test_score_planted_pattern_flagged_single_habit_not():
+    df = scored(planted_class())
+    discuss = row(df, "discuss", "about")
+    assert discuss.flagged and discuss.status == "over-used"
+    assert discuss.learner_writers == 5 and discuss.reference_count == 0
+    habit = row(df, "depend", "of")
+    assert habit.learner_count == 6 and habit.learner_writers == 1
+    assert not habit.flagged and habit.status == "too rare in class"
+    assert row(df, "talk", "about").status == "as native"
+
+
+def test_score_columns_in_contract_order():
+    df = scored(planted_class())
+    assert list(df.columns[: len(CONTRACT)]) == CONTRACT
+    assert df.iloc[0].flagged  # flagged patterns come first
+
+
+def test_score_rare_governor_is_not_enough_reference_evidence():
+    atts = [att(w, "rare", "on", "ADJ") for w in ("a", "b", "c", "d")]
+    df = scored(atts)
+    assert row(df, "rare", "on").status == "not enough reference evidence"
+    assert not row(df, "rare", "on").flagged
+
+
+def test_score_under_use_reported_for_avoided_native_pattern():
+    # "listen music": the class writes the object slot; natives write "listen to"
+    ref = reference({("listen", "VERB", "to"): 200, ("listen", "VERB", "-"): 4})
+    atts = [att(w, "listen", "-") for w in ("a", "b", "c", "d", "e") for _ in range(2)]
+    df = scored(atts, ref)
+    assert row(df, "listen", "-").status == "over-used"
+    to = row(df, "listen", "to")
+    assert to.status == "under-used" and to.learner_count == 0
+
+
+def test_score_thresholds_are_options():
+    df = scored(planted_class(), min_writers=6)
+    assert not row(df, "discuss", "about").flagged
+    df = scored(planted_class(), min_writers=1)
+    assert row(df, "depend", "of").flagged
+
+
+def test_score_defaults_documented():
+    assert DEFAULTS == {"min_count": 3, "min_writers": 2, "min_reference": 20, "min_g2": 10.83,
+                        "min_log_ratio": 1.0, "measure": "oe"}
+
+
+@settings(max_examples=60, deadline=None)
+@given(n=st.integers(0, 8), writers=st.integers(1, 6))
+def test_score_flag_never_fires_below_minimum_counts(n, writers):
+    names = [f"w{i}" for i in range(writers)]
+    atts = [att(names[i % writers], "discuss", "about") for i in range(n)] + [att("x", "discuss", "-")]
+    df = scored(atts)
+    sub = df[(df.governor == "discuss") & (df.preposition == "about")]
+    if n < DEFAULTS["min_count"] or min(n, writers) < DEFAULTS["min_writers"]:
+        assert not sub.flagged.any()
+
+
+@settings(max_examples=40, deadline=None)
+@given(extra=st.integers(1, 5000))
+def test_score_unrelated_counts_do_not_change_conditional_comparison(extra):
+    base = scored(planted_class())
+    ref = reference({("unrelated", "NOUN", "of"): extra})
+    atts = planted_class() + [att("zed", "unrelated", "of") for _ in range(3)]
+    more = scored(atts, ref)
+    for col in ("log_likelihood", "log_ratio", "reference_count", "reference_governor_count", "status"):
+        assert row(more, "discuss", "about")[col] == pytest.approx(row(base, "discuss", "about")[col])
