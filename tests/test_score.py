@@ -89,6 +89,16 @@ def test_score_under_use_reported_for_avoided_native_pattern():
     assert to.status == "under-used" and to.learner_count == 0
 
 
+def test_score_over_use_of_native_form_not_flagged():
+    # "talk about" is a native form (150 of 300 in the invented reference); a class that
+    # writes it for every use of "talk" over-uses it but is not flagged
+    atts = [att(w, "talk", "about") for w in ("a", "b", "c", "d", "e", "f") for _ in range(5)]
+    df = scored(atts)
+    talk = row(df, "talk", "about")
+    assert talk.log_likelihood > 10.83 and talk.log_ratio >= 1
+    assert talk.status == "over-used (native form)" and not talk.flagged
+
+
 def test_score_thresholds_are_options():
     df = scored(planted_class(), min_writers=6)
     assert not row(df, "discuss", "about").flagged
@@ -98,7 +108,7 @@ def test_score_thresholds_are_options():
 
 def test_score_defaults_documented():
     assert DEFAULTS == {"min_count": 3, "min_writers": 2, "min_reference": 20, "min_g2": 10.83,
-                        "min_log_ratio": 1.0, "measure": "oe"}
+                        "min_log_ratio": 1.0, "max_native_share": 0.05, "measure": "oe"}
 
 
 @settings(max_examples=60, deadline=None)

@@ -68,6 +68,7 @@ def scan(
     min_reference: int = typer.Option(20, "--min-reference", min=0, help="Attachments the governor needs in the reference."),
     min_g2: float = typer.Option(10.83, "--min-g2", min=0, help="Log-likelihood G2 threshold (10.83: p < .001)."),
     min_log_ratio: float = typer.Option(1.0, "--min-log-ratio", help="Log Ratio threshold (1 = twice the native rate)."),
+    max_native_share: float = typer.Option(0.05, "--max-native-share", min=0, max=1, help="Not flagged when natives use the form this often (share of the governor's uses)."),
     measure: str = typer.Option("oe", "--measure", help="Score of the collocation ratio: oe, mi or logdice."),
     term_start: Optional[str] = typer.Option(None, "--term-start", help="First day of the term, YYYY-MM-DD (orders terms; default: today)."),
     l1: Optional[str] = typer.Option(None, "--l1", help="Learners' first language (ISO 639-1) when the manifest has none."),
@@ -86,7 +87,7 @@ def scan(
     if not essays.exists():
         _fail(f"essay folder not found: {essays}")
     settings = dict(min_count=min_count, min_writers=min_writers, min_reference=min_reference, min_g2=min_g2,
-                    min_log_ratio=min_log_ratio, measure=measure)
+                    min_log_ratio=min_log_ratio, max_native_share=max_native_share, measure=measure)
     try:
         with Progress(console=err, transient=True, disable=quiet) as bar:
             task = bar.add_task("parsing essays", total=None)

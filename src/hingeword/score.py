@@ -17,7 +17,12 @@ Two questions, two tables (METHODS.md §1 and §3):
 Status, in this order: ``not enough reference evidence`` (the governor has fewer
 than ``min_reference`` attachments in the reference); ``over-used`` (G² ≥
 ``min_g2`` and Log Ratio ≥ ``min_log_ratio``, with at least ``min_count``
-instances by ``min_writers`` writers — otherwise ``too rare in class``);
+instances by ``min_writers`` writers — otherwise ``too rare in class``) when
+native writers rarely use the form (reference share below ``max_native_share``,
+default 5 %, one use in twenty: a project default, not from a source), else
+``over-used (native form)``: a correct pattern the class simply uses more, often
+because of the essay topic ("travel to" in essays about commuting), which is not
+flagged;
 ``under-used`` (G² ≥ ``min_g2`` and Log Ratio ≤ −``min_log_ratio``, the
 governor used ``min_count`` times by ``min_writers`` writers); ``as native``
 (enough class evidence, no difference past the thresholds); ``too rare in
@@ -46,10 +51,12 @@ DEFAULTS: dict = {
     "min_reference": 20,  # attachments of the governor in the reference
     "min_g2": 10.83,  # chi-squared(1) critical value for p < .001 (Rayson's table; METHODS §3)
     "min_log_ratio": 1.0,  # at least twice the native rate (Hardie 2014)
+    "max_native_share": 0.05,  # above this share of the governor's native uses the form itself is native
     "measure": "oe",  # effect-size score of the collocation ratio: oe, mi or logdice
 }
 
-STATUSES = ("over-used", "under-used", "as native", "not enough reference evidence", "too rare in class")
+STATUSES = ("over-used", "under-used", "over-used (native form)", "as native", "not enough reference evidence",
+            "too rare in class")
 
 CONTRACT = [
     "governor", "governor_pos", "preposition", "learner_count", "learner_writers", "learner_governor_count",
@@ -157,7 +164,12 @@ def score_patterns(counts: pd.DataFrame, attachments: Sequence, reference, setti
         if n2[i] < s["min_reference"]:
             status.append("not enough reference evidence")
         elif significant and lr[i] >= s["min_log_ratio"]:
-            status.append("over-used" if enough_pattern else "too rare in class")
+            if not enough_pattern:
+                status.append("too rare in class")
+            elif n2[i] and c[i] / n2[i] >= s["max_native_share"]:
+                status.append("over-used (native form)")
+            else:
+                status.append("over-used")
         elif significant and lr[i] <= -s["min_log_ratio"]:
             status.append("under-used" if enough_governor else "too rare in class")
         elif enough_pattern:
