@@ -42,7 +42,7 @@ REQUIRED_PHENOMENA = (
     "omission",
     "lacks-of",
 )
-OPTIONAL_PHENOMENA = ("adjunct", "non-governor")
+OPTIONAL_PHENOMENA = ("adjunct", "non-governor", "temporal-adjunct")
 LEARNER_ERROR_KINDS = ("unnecessary-prep", "wrong-prep", "omission", "lacks-of")
 
 MIN_SENTENCES = 130

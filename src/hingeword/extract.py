@@ -17,7 +17,11 @@ English pipelines use them):
   so that "listen music" and "discuss about" compare against the same governor;
 * infinitival "to" (tag ``TO``, label ``aux``) is never a preposition;
 * no propagation over coordination: a shared dependent counts for the conjunct
-  the parser attaches it to.
+  the parser attaches it to;
+* temporal adjuncts are left out: a preposition whose object is a time expression
+  (:data:`TIME_WORDS`, a year such as "2019", a clock time) is chosen by the time
+  noun, not by the governor ("came *on* Thursday", "built *in* 2010"). Essays about
+  "a difficult week" would otherwise make "come on" look like a class pattern.
 
 Repairs for learner errors that mislead the small pipeline (each documented in
 :func:`repaired_pos`).
@@ -29,6 +33,15 @@ from collections.abc import Iterable
 from dataclasses import dataclass, replace
 
 GOVERNOR_POS = frozenset({"VERB", "ADJ", "NOUN"})
+#: Heads of time expressions (lemmas, lower case): weekdays, months, seasons, parts of
+#: the day and units of time (common practice in ESL grammars: "on Monday", "in May").
+TIME_WORDS = frozenset(
+    """monday tuesday wednesday thursday friday saturday sunday weekend weekday
+    january february march april may june july august september october november december
+    spring summer autumn fall winter morning afternoon evening night midnight noon midday
+    dawn dusk daytime nighttime time moment second minute hour day week fortnight month
+    year decade century term semester holiday holidays vacation o'clock pm am a.m. p.m.""".split()
+)
 PREP_DEPS = frozenset({"prep", "agent", "prt"})
 NO_PREP = "-"
 _EXCLUDED_PREPS = frozenset({"than"})
@@ -117,6 +130,26 @@ def governor_of(head):
     return head if repaired_pos(head) in GOVERNOR_POS else None
 
 
+def is_temporal(prep) -> bool:
+    """True when the preposition's object is a time expression (see :data:`TIME_WORDS`).
+
+    "of" is never temporal: "the end *of* the year" is a complement of "end".
+    """
+    if prep.lower_ == "of":
+        return False
+    for obj in prep.children:
+        if obj.dep_ != "pobj":
+            continue
+        low = obj.lemma_.lower()
+        if low in TIME_WORDS or obj.lower_ in TIME_WORDS:
+            return True
+        if obj.like_num and (len(obj.text) == 4 and obj.text[:2] in ("19", "20") or ":" in obj.text):
+            return True
+        if obj.like_num and any(c.lower_ in ("pm", "am", "a.m.", "p.m.", "o'clock") for c in obj.rights):
+            return True
+    return False
+
+
 def _multiword_at(doc, i: int) -> tuple[str, ...] | None:
     low = [t.lower_ for t in doc[i : i + 4]]
     for seq in MULTIWORD:
@@ -193,7 +226,7 @@ def extract_doc(doc, essay_id: str = "", writer: str = "") -> list[Attachment]:
             if tok.tag_ == "TO" and relation not in ("prep", "dative", "prt"):
                 continue
             word = tok.lower_
-            if not word.isalpha() or word in _EXCLUDED_PREPS:
+            if not word.isalpha() or word in _EXCLUDED_PREPS or is_temporal(tok):
                 continue
             gov = governor_of(head)
             if gov is not None:
