@@ -25,7 +25,7 @@ reference_app = typer.Typer(help="Build, list and describe native references.", 
 app.add_typer(reference_app, name="reference")
 
 out = Console(highlight=False, soft_wrap=True)
-err = Console(stderr=True, highlight=False)
+err = Console(stderr=True, highlight=False, soft_wrap=True)
 
 DEFAULT_WORKSPACE = Path("hingeword-workspace")
 WorkspaceOpt = typer.Option(DEFAULT_WORKSPACE, "--workspace", "-w", help="Workspace folder (database, parse cache, references).")
@@ -288,6 +288,8 @@ def dismiss(
     scope = _scope(class_name, all_classes)
     try:
         with Workspace(workspace, create=False) as ws:
+            if scope:
+                ws.require_class(scope)
             ws.dismiss(governor, preposition, class_name=scope, reason=reason)
     except HingewordError as exc:
         _fail(str(exc))

@@ -158,8 +158,12 @@ class Workspace:
         self.conn = sqlite3.connect(self.db_path, isolation_level=None, timeout=30)
         self.conn.row_factory = sqlite3.Row
         self.conn.execute("PRAGMA foreign_keys = ON")
+        try:
+            self._migrate()
+        except BaseException:
+            self.conn.close()
+            raise
         self.conn.execute("PRAGMA journal_mode = WAL")
-        self._migrate()
 
     @property
     def cache_dir(self) -> Path:
@@ -380,16 +384,25 @@ class Workspace:
                               (scope, governor.lower(), preposition.lower(), reason, day))
 
     def restore(self, governor: str, preposition: str, *, class_name: str | None, on: str | None = None) -> bool:
-        """Undo a dismissal; returns False when there was none."""
-        scope = class_name or ALL_CLASSES
+        """Undo a dismissal (for a class: also one made under a class linked to it); False when there was none."""
+        scopes = sorted(self.class_group(class_name)) if class_name else [ALL_CLASSES]
         day = on or _dt.date.today().isoformat()
+        removed = 0
         with self._tx():
-            cur = self.conn.execute("DELETE FROM decisions WHERE scope = ? AND governor = ? AND preposition = ?",
-                                    (scope, governor.lower(), preposition.lower()))
-            if cur.rowcount:
-                self.conn.execute("INSERT INTO decision_log VALUES (?, ?, ?, 'restore', '', ?)",
-                                  (scope, governor.lower(), preposition.lower(), day))
-        return bool(cur.rowcount)
+            for scope in scopes:
+                cur = self.conn.execute("DELETE FROM decisions WHERE scope = ? AND governor = ? AND preposition = ?",
+                                        (scope, governor.lower(), preposition.lower()))
+                if cur.rowcount:
+                    removed += cur.rowcount
+                    self.conn.execute("INSERT INTO decision_log VALUES (?, ?, ?, 'restore', '', ?)",
+                                      (scope, governor.lower(), preposition.lower(), day))
+        return bool(removed)
+
+    def require_class(self, class_name: str) -> None:
+        """Raise a clear error when no run of the class (or of a class linked to it) exists."""
+        if not self.runs_in_order(class_name):
+            known = sorted({r["class"] for r in self.runs()})
+            raise WorkspaceError(f"no scans of class '{class_name}' in {self.root} (known: {', '.join(known) or 'none yet'})")
 
     def decisions_for(self, class_name: str) -> dict[tuple[str, str], sqlite3.Row]:
         """Active dismissals that apply to a class (its own, its group's, and all-class ones)."""

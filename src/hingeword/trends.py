@@ -67,9 +67,8 @@ class Trends:
 
 def compute_trends(ws: Workspace, class_name: str) -> Trends:
     """Per pattern and term: count, writers, rate per 10,000 words, flag and status."""
+    ws.require_class(class_name)
     runs = ws.runs_in_order(class_name)
-    if not runs:
-        ws.run(class_name, "?")  # raises the "no scan of class" error with the known list
     figs = [{(f["governor"], f["governor_pos"], f["preposition"]): f for f in ws.figures(r["id"])} for r in runs]
     tracked = sorted({k for fig in figs for k, f in fig.items() if f.get("flagged")})
     decisions = ws.decisions_for(class_name)
