@@ -42,15 +42,18 @@ def _setup_logging(verbose: bool) -> None:
     logging.basicConfig(level=logging.DEBUG if verbose else logging.WARNING, format="%(levelname)s: %(message)s")
 
 
+def _version(value: bool) -> None:
+    if value:
+        out.print(f"hingeword {__version__}")
+        raise typer.Exit(0)
+
+
 @app.callback()
 def _main(
     verbose: bool = typer.Option(False, "--verbose", "-v", help="Show debug messages."),
-    version: bool = typer.Option(False, "--version", help="Print the version and exit."),
+    version: bool = typer.Option(False, "--version", callback=_version, is_eager=True, help="Print the version and exit."),
 ):
     _setup_logging(verbose)
-    if version:
-        out.print(f"hingeword {__version__}")
-        raise typer.Exit(0)
 
 
 @app.command()
@@ -143,7 +146,8 @@ def print_scan_summary(result, top: int) -> None:
     for nd in ing.near_duplicates:
         out.print(f"  near-duplicates (kept): {nd.first} ~ {nd.second} ({nd.similarity:.0f}%)", markup=False)
     for (lemma, pos), known in sorted(result.typo_groups.items()):
-        out.print(f"  spelling: '{lemma}' ({pos}) counted as '{known}'", markup=False)
+        target = known if isinstance(known, str) else f"{known[0]}' ({known[1]}"
+        out.print(f"  spelling: '{lemma}' ({pos}) counted as '{target}'", markup=False)
     df = result.patterns
     out.print(f"{result.attachments:,} attachments in {int((df.learner_count > 0).sum()):,} patterns; "
               f"{int(df.flagged.sum())} flagged as over-used, {int((df.status == 'under-used').sum())} under-used")

@@ -46,7 +46,7 @@ def write_patterns(df: pd.DataFrame, path: str | Path) -> Path:
     path.parent.mkdir(parents=True, exist_ok=True)
     out = df.copy()
     if "flagged" in out.columns:
-        out["flagged"] = out["flagged"].map(lambda v: "true" if bool(v) is True and v is not pd.NA else "false")
+        out["flagged"] = out["flagged"].map(lambda v: "true" if v is not pd.NA and v is not None and v == True else "false")  # noqa: E712
     if suffix == ".csv":
         out.to_csv(path, index=False, float_format="%.6g", lineterminator="\n")
     elif suffix == ".xlsx":

@@ -130,12 +130,14 @@ def governor_of(head):
     return head if repaired_pos(head) in GOVERNOR_POS else None
 
 
-def is_temporal(prep) -> bool:
-    """True when the preposition's object is a time expression (see :data:`TIME_WORDS`).
+#: Prepositions that can head a time adjunct; others ("about the weekend", "the
+#: end of the year") keep their object whatever it means.
+TIME_PREPS = frozenset("on in at during for since until till by before after through throughout from over within".split())
 
-    "of" is never temporal: "the end *of* the year" is a complement of "end".
-    """
-    if prep.lower_ == "of":
+
+def is_temporal(prep) -> bool:
+    """True when a time preposition's object is a time expression (see :data:`TIME_WORDS`)."""
+    if prep.lower_ not in TIME_PREPS:
         return False
     for obj in prep.children:
         if obj.dep_ != "pobj":
@@ -240,14 +242,21 @@ def extract_doc(doc, essay_id: str = "", writer: str = "") -> list[Attachment]:
     return out
 
 
-def regroup_typos(attachments: Iterable[Attachment], mapping: dict[tuple[str, str], str]) -> list[Attachment]:
+def regroup_typos(attachments: Iterable[Attachment], mapping: dict) -> list[Attachment]:
     """Replace misspelt governor lemmas by the known lemma ``mapping`` gives.
 
-    :param mapping: ``(lemma, pos) -> known lemma`` from :func:`hingeword.lexicon.typo_map`.
+    :param mapping: ``(lemma, pos) -> known lemma`` (same POS, from
+        :func:`hingeword.patterns.typo_map`) or ``-> (lemma, pos)`` (from
+        :func:`hingeword.patterns.participle_map`).
     The surface form stays as written; ``original_governor`` keeps the old lemma.
     """
     out = []
     for a in attachments:
         new = mapping.get((a.governor, a.governor_pos))
-        out.append(replace(a, governor=new, original_governor=a.governor) if new else a)
+        if isinstance(new, tuple):
+            out.append(replace(a, governor=new[0], governor_pos=new[1], original_governor=a.governor))
+        elif new:
+            out.append(replace(a, governor=new, original_governor=a.governor))
+        else:
+            out.append(a)
     return out

@@ -79,3 +79,37 @@ def typo_map(
         if best is not None:
             out[(lemma, pos)] = best[0]
     return out
+
+
+def participle_map(
+    items: Iterable[tuple[str, str, str]],
+    lexicon: Mapping[tuple[str, str], int],
+    *,
+    ratio: float = TYPO_RATIO,
+    known_zipf: float = KNOWN_ZIPF,
+) -> dict[tuple[str, str], tuple[str, str]]:
+    """Misspelt participial adjectives the tagger reads as verbs.
+
+    "I am intrested in art": the small pipeline tags "intrested" as a VERB with the
+    lemma "intreste", so no verb is near it. When a VERB governor is unknown, its
+    surface form ends in "-ed" and that form is within ``ratio`` of a known ADJ of
+    the reference ("interested", "worried", "married"), it is grouped under that
+    adjective.
+
+    :param items: (lemma, POS, surface form) of the class's governors.
+    :returns: ``{(lemma, "VERB"): (adjective, "ADJ")}``
+    """
+    from wordfreq import zipf_frequency
+
+    adjectives = sorted(lem for (lem, pos), n in lexicon.items() if pos == "ADJ" and n >= MIN_TARGET_TOKENS and lem.isalpha())
+    out: dict[tuple[str, str], tuple[str, str]] = {}
+    for lemma, pos, surface in sorted(set(items)):
+        form = surface.lower()
+        if pos != "VERB" or not form.endswith("ed") or not form.isalpha() or lexicon.get((lemma, pos), 0) > 0:
+            continue
+        if zipf_frequency(form, "en") >= known_zipf or (lemma, pos) in out:
+            continue
+        best = process.extractOne(form, adjectives, scorer=fuzz.ratio, score_cutoff=ratio)
+        if best is not None:
+            out[(lemma, pos)] = (best[0], "ADJ")
+    return out

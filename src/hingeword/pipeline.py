@@ -18,7 +18,7 @@ from .extract import extract_doc, regroup_typos
 from .history import Workspace
 from .ingest import IngestResult, read_essays
 from .parse import ModelInfo, ParseStats, default_processes, load_model, parse_texts
-from .patterns import count_patterns, typo_map
+from .patterns import count_patterns, participle_map, typo_map
 
 log = logging.getLogger("hingeword")
 
@@ -96,7 +96,10 @@ def scan(
                            stats=stats, progress=tick)
         for essay, doc in zip(ingest.essays, docs):
             attachments.extend(extract_doc(doc, essay.essay_id, essay.writer))
-        groups = typo_map({(a.governor, a.governor_pos) for a in attachments}, reference.lemmas)
+        groups: dict = typo_map({(a.governor, a.governor_pos) for a in attachments}, reference.lemmas)
+        unmatched = {(a.governor, a.governor_pos, a.governor_text) for a in attachments
+                     if (a.governor, a.governor_pos) not in groups}
+        groups.update(participle_map(unmatched, reference.lemmas))
         attachments = regroup_typos(attachments, groups)
         counts = count_patterns(attachments)
         scored, used = score_run(counts, attachments, ingest.essays, reference, settings or {})
@@ -106,7 +109,10 @@ def scan(
             if l1_of.get(a.writer):
                 l1_by_pattern[a.key][l1_of[a.writer]] += 1
         figures = categorise_figures(scored.to_dict("records"), reference, rules, l1_by_pattern)
-        run_settings = {**used, "term_start": term_start or _dt.date.today().isoformat(), "l1": l1}
+        if term_start is None:  # a re-scan keeps the term's recorded start, so term order holds
+            old = ws.conn.execute("SELECT term_start FROM runs WHERE class = ? AND term = ?", (class_name, term)).fetchone()
+            term_start = old[0] if old and old[0] else _dt.date.today().isoformat()
+        run_settings = {**used, "term_start": term_start, "l1": l1}
         run_meta = {
             "tool_version": __version__,
             "model": info.name,
@@ -119,7 +125,8 @@ def scan(
         }
         notes = ingest_notes(ingest)
         notes += [("rules", str(p)) for p in rules.problems]
-        notes += [("typo", f"'{k[0]}' ({k[1]}) grouped under '{v}'") for k, v in sorted(groups.items())]
+        notes += [("typo", f"'{k[0]}' ({k[1]}) grouped under '{v if isinstance(v, str) else v[0]}'"
+                   + ("" if isinstance(v, str) else f" ({v[1]})")) for k, v in sorted(groups.items())]
         ref_model = str(reference.manifest.get("model", ""))
         if ref_model and ref_model != info.name and not ref_model.startswith("gold") and "," not in ref_model:
             notes.append(("model", f"essays parsed with {info.name}, reference with {ref_model}: counts may differ by parser"))

@@ -1,0 +1,225 @@
+"""Tests for hingeword.cli through typer's CliRunner.
+
+User mistakes must exit 1 with one ``Error: ...`` line on stderr and no
+traceback (as sqlite-utils ``test_duplicate_table`` asserts its error line).
+Paths are kept short by running in ``tmp_path`` with relative paths. Essays
+are invented (``conftest.py``).
+"""
+
+from __future__ import annotations
+
+import csv
+
+import pytest
+from typer.testing import CliRunner
+
+from conftest import TERM_START, write_essays
+from hingeword import __version__
+from hingeword.cli import app
+from hingeword.history import Workspace
+
+runner = CliRunner()
+
+
+def _commands(group, prefix=()) -> list[list[str]]:
+    """Every command and sub-command of the app, found by walking the click group."""
+    out = [list(prefix)]
+    for name, cmd in sorted(group.commands.items()):
+        if getattr(cmd, "commands", None) is not None:  # a group (typer vendors its own click)
+            out += _commands(cmd, (*prefix, name))
+        else:
+            out.append([*prefix, name])
+    return out
+
+
+def _all_commands() -> list[list[str]]:
+    import typer.main
+
+    return _commands(typer.main.get_command(app))
+
+
+def _invoke(*args: str):
+    return runner.invoke(app, list(args))
+
+
+def _assert_one_error_line(result, expected: str) -> None:
+    assert result.exit_code == 1, result.output
+    assert result.stderr == f"Error: {expected}\n"
+    assert result.stdout == ""
+    assert "Traceback" not in result.output
+
+
+@pytest.fixture
+def in_tmp(tmp_path, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    return tmp_path
+
+
+# ------------------------------------------------------------------ help
+
+
+@pytest.mark.parametrize("command", _all_commands(), ids=lambda c: " ".join(c) or "hingeword")
+def test_cli_help_of_every_command(command):
+    result = _invoke(*command, "--help")
+    assert result.exit_code == 0, result.output
+    assert "Usage:" in result.stdout
+    assert "Traceback" not in result.output
+
+
+def test_cli_help_covers_the_documented_commands():
+    found = _all_commands()
+    for command in (["scan"], ["export"], ["concordance"], ["reference", "build"], ["reference", "list"],
+                    ["reference", "info"]):
+        assert command in found
+
+
+def test_cli_version():
+    result = _invoke("--version")
+    assert result.exit_code == 0
+    assert result.stdout == f"hingeword {__version__}\n"
+
+
+# ------------------------------------------------------------------ scan
+
+
+def test_cli_scan_missing_folder(in_tmp):
+    result = _invoke("scan", "nowhere", "--class", "c", "--term", "t", "-w", "ws", "-q")
+    _assert_one_error_line(result, "essay folder not found: nowhere")
+    assert not (in_tmp / "ws").exists()
+
+
+def test_cli_scan_missing_folder_long_path(tmp_path):
+    """Rich must not wrap the error line at 80 columns (a long path stays on one line)."""
+    missing = tmp_path / ("essays-of-the-evening-class-" * 3) / "autumn"
+    result = _invoke("scan", str(missing), "--class", "c", "--term", "t", "-w", str(tmp_path / "ws"), "-q")
+    _assert_one_error_line(result, f"essay folder not found: {missing}")
+
+
+def test_cli_scan_missing_option_is_usage_error(in_tmp):
+    (in_tmp / "essays").mkdir()
+    result = _invoke("scan", "essays", "--term", "t")
+    assert result.exit_code == 2
+    assert "--class" in result.stderr
+
+
+@pytest.mark.slow
+def test_cli_scan_prints_summary(in_tmp, tiny_ref_path):
+    write_essays(in_tmp / "essays")
+    result = _invoke("scan", "essays", "--class", "evening-b1", "--term", "2026-spring", "-w", "ws", "-q",
+                     "--reference", str(tiny_ref_path), "--min-reference", "5", "--min-g2", "3.84",
+                     "--term-start", TERM_START, "--processes", "1")
+    assert result.exit_code == 0, result.output
+    out = result.stdout
+    assert "evening-b1 / 2026-spring: 4 essays read, 2 skipped" in out
+    assert "  skipped empty.txt: empty file\n" in out
+    assert "  skipped notes.pdf: unsupported file type '.pdf' (use .txt, .docx, .odt or .csv)\n" in out
+    assert "  spelling: 'dicuss' (VERB) counted as 'discuss'\n" in out
+    assert "Over-used (candidates for your judgement, not verdicts):" in out
+    assert "discuss + about" in out
+    with Workspace(in_tmp / "ws", create=False) as ws:
+        assert [r["class"] for r in ws.runs()] == ["evening-b1"]
+
+
+# ------------------------------------------------------------------ export
+
+
+def test_cli_export_unknown_class(hand_run, in_tmp):
+    result = _invoke("export", "--class", "nope", "--term", "t1", "-w", "ws", "-o", "out.csv")
+    _assert_one_error_line(result, "no scan of class 'nope', term 't1' in ws (known: morning-a2/t1)")
+    assert not (in_tmp / "out.csv").exists()
+
+
+def test_cli_export_missing_workspace(in_tmp):
+    result = _invoke("export", "--class", "c", "--term", "t", "-w", "nows", "-o", "out.csv")
+    _assert_one_error_line(result, "no workspace at nows (run 'hingeword scan' first)")
+    assert not (in_tmp / "nows").exists()  # export never creates a workspace
+
+
+def test_cli_export_bad_suffix(hand_run, in_tmp):
+    result = _invoke("export", "--class", "morning-a2", "--term", "t1", "-w", "ws", "-o", "out.pdf")
+    _assert_one_error_line(result, "cannot export to 'out.pdf': use a file ending in .csv, .xlsx or .json")
+
+
+def test_cli_export_writes_csv(hand_run, in_tmp):
+    result = _invoke("export", "--class", "morning-a2", "--term", "t1", "-w", "ws", "-o", "out/patterns.csv")
+    assert result.exit_code == 0, result.output
+    assert result.stderr == "wrote 2 patterns to out/patterns.csv\n"
+    rows = list(csv.DictReader((in_tmp / "out" / "patterns.csv").read_text(encoding="utf-8").splitlines()))
+    # rows as stored: by governor, POS, preposition
+    assert [(r["governor"], r["preposition"], r["flagged"], r["status"]) for r in rows] == [
+        ("discuss", "-", "false", "under-used"), ("discuss", "about", "true", "over-used")]
+
+
+# ------------------------------------------------------------------ concordance
+
+
+def test_cli_concordance_lines_have_writer_ids(hand_run, in_tmp):
+    result = _invoke("concordance", "discuss", "about", "--class", "morning-a2", "--term", "t1", "-w", "ws",
+                     "--width", "12")
+    assert result.exit_code == 0, result.output
+    lines = result.stdout.splitlines()
+    # writer padded to 14, left context right-aligned to --width, key in brackets
+    assert lines == [
+        f"{'lena':<14} {'I':>12} [discussed about] the rules wi",
+        f"{'marek':<14} {'They':>12} [discussed about] money.",
+        f"{'zofia':<14} {'We':>12} [discussed about] the trip.",
+    ]
+    assert result.stderr == "3 lines\n"
+
+
+def test_cli_concordance_unknown_pattern(hand_run, in_tmp):
+    result = _invoke("concordance", "talk", "of", "--class", "morning-a2", "--term", "t1", "-w", "ws")
+    _assert_one_error_line(result, "no 'talk + of' in morning-a2 / t1")
+
+
+@pytest.mark.slow
+def test_cli_concordance_of_a_real_scan(scanned):
+    workspace, result = scanned
+    out = _invoke("concordance", "discuss", "about", "--class", "evening-b1", "--term", "2026-spring",
+                  "-w", str(workspace))
+    assert out.exit_code == 0, out.output
+    lines = out.stdout.splitlines()
+    assert len(lines) == 5
+    # ben wrote "discussed about" and "dicuss about"
+    assert sorted(line.split()[0] for line in lines) == ["anna", "ben", "ben", "carla", "dawid"]
+    assert any("[dicuss about]" in line for line in lines)  # the misspelling is shown as written
+
+
+# ------------------------------------------------------------------ reference
+
+
+def test_cli_reference_info_missing(in_tmp):
+    result = _invoke("reference", "info", "no-such-ref", "-w", "ws")
+    assert result.exit_code == 1
+    assert result.stderr.startswith("Error: unknown reference 'no-such-ref' (known: ")
+    assert result.stderr.count("\n") == 1
+    assert "Traceback" not in result.output
+
+
+def test_cli_reference_build_list_info(in_tmp):
+    from conftest import CONLLU_DIR
+
+    result = _invoke("reference", "build", str(CONLLU_DIR), "--name", "gold", "--format", "conllu", "-w", "ws",
+                     "--licence", "CC0 (invented)", "--build-date", "2026-01-05", "-q")
+    assert result.exit_code == 0, result.output
+    assert result.stdout == ("built gold at ws/references/gold: 1 files, 61 words, 10 attachments, "
+                             "parser gold (CoNLL-U) -\n")
+
+    listed = _invoke("reference", "list", "-w", "ws")
+    assert listed.exit_code == 0
+    assert any(line.startswith("gold ") and "61 words" in line for line in listed.stdout.splitlines())
+
+    info = _invoke("reference", "info", "gold", "-w", "ws")
+    assert info.exit_code == 0, info.output
+    fields = {line[:18].strip(): line[19:] for line in info.stdout.splitlines()}  # "key<18> value"
+    assert fields["name"] == "gold"
+    assert fields["licence"] == "CC0 (invented)"
+    assert (fields["words"], fields["attachments"], fields["patterns"]) == ("61", "10", "10")
+    assert fields["build_date"] == "2026-01-05"
+    assert fields["limits"] == ""
+    assert fields["path"] == "ws/references/gold"
+
+
+def test_cli_reference_build_bad_source(in_tmp):
+    result = _invoke("reference", "build", "missing", "--name", "x", "--format", "conllu", "-w", "ws", "-q")
+    _assert_one_error_line(result, "reference source folder not found: missing")
