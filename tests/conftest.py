@@ -20,6 +20,11 @@ from collections.abc import Callable
 from pathlib import Path
 
 import pytest
+from hypothesis import settings as _hypothesis_settings
+
+# Timing is not what these properties test: a loaded 2-core machine must not make them flaky.
+_hypothesis_settings.register_profile("hingeword", deadline=None)
+_hypothesis_settings.load_profile("hingeword")
 
 DATA = Path(__file__).parent / "data" / "reference"
 NATIVE_DIR = DATA / "native"
