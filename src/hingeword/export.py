@@ -47,6 +47,10 @@ def write_patterns(df: pd.DataFrame, path: str | Path) -> Path:
     out = df.copy()
     if "flagged" in out.columns:
         out["flagged"] = out["flagged"].map(lambda v: "true" if v is not pd.NA and v is not None and v == True else "false")  # noqa: E712
+    if suffix in (".csv", ".xlsx"):  # nested values (all causes with evidence) as a JSON column
+        for col in out.columns:
+            if out[col].map(lambda v: isinstance(v, (list, dict))).any():
+                out[col] = out[col].map(lambda v: json.dumps(v, ensure_ascii=False) if isinstance(v, (list, dict)) else v)
     if suffix == ".csv":
         out.to_csv(path, index=False, float_format="%.6g", lineterminator="\n")
     elif suffix == ".xlsx":
