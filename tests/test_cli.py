@@ -155,7 +155,7 @@ def test_cli_export_writes_csv(hand_run, in_tmp):
 
 def test_cli_concordance_lines_have_writer_ids(hand_run, in_tmp):
     result = _invoke("concordance", "discuss", "about", "--class", "morning-a2", "--term", "t1", "-w", "ws",
-                     "--width", "12")
+                     "--width", "12", "--names", "real")
     assert result.exit_code == 0, result.output
     lines = result.stdout.splitlines()
     # writer padded to 14, left context right-aligned to --width, key in brackets
@@ -165,6 +165,10 @@ def test_cli_concordance_lines_have_writer_ids(hand_run, in_tmp):
         f"{'zofia':<14} {'We':>12} [discussed about] the trip.",
     ]
     assert result.stderr == "3 lines\n"
+    # by default writers are pseudonymised with the class's stable codes
+    coded = _invoke("concordance", "discuss", "about", "--class", "morning-a2", "--term", "t1", "-w", "ws")
+    assert [line.split()[0] for line in coded.stdout.splitlines()] == ["S01", "S02", "S03"]
+    assert "lena" not in coded.stdout and "zofia" not in coded.stdout
 
 
 def test_cli_concordance_unknown_pattern(hand_run, in_tmp):
@@ -176,7 +180,7 @@ def test_cli_concordance_unknown_pattern(hand_run, in_tmp):
 def test_cli_concordance_of_a_real_scan(scanned):
     workspace, result = scanned
     out = _invoke("concordance", "discuss", "about", "--class", "evening-b1", "--term", "2026-spring",
-                  "-w", str(workspace))
+                  "-w", str(workspace), "--names", "real")
     assert out.exit_code == 0, out.output
     lines = out.stdout.splitlines()
     assert len(lines) == 5

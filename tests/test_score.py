@@ -99,6 +99,21 @@ def test_score_over_use_of_native_form_not_flagged():
     assert talk.status == "over-used (native form)" and not talk.flagged
 
 
+def test_score_pattern_of_two_writers_in_a_large_class_not_flagged():
+    # 14 writers of equal size; "discuss about" by 2 of them only: DP 0.86 > 0.8
+    atts = []
+    for i in range(14):
+        w = f"w{i:02d}"
+        atts += [att(w, "discuss", "-"), att(w, "talk", "about"), att(w, "go", "to")]
+        # equal writer sizes: two "discuss about" for the first two, two objects for the rest
+        atts += [att(w, "discuss", "about" if i < 2 else "-") for _ in range(2)]
+    df = scored(atts)
+    discuss = row(df, "discuss", "about")
+    assert discuss.learner_writers == 2 and discuss.dispersion_dp > 0.8
+    assert discuss.status == "too rare in class"
+    assert row(scored(atts, max_dispersion=0.9), "discuss", "about").flagged
+
+
 def test_score_thresholds_are_options():
     df = scored(planted_class(), min_writers=6)
     assert not row(df, "discuss", "about").flagged
@@ -108,7 +123,7 @@ def test_score_thresholds_are_options():
 
 def test_score_defaults_documented():
     assert DEFAULTS == {"min_count": 3, "min_writers": 2, "min_reference": 20, "min_g2": 10.83,
-                        "min_log_ratio": 1.0, "max_native_share": 0.05, "measure": "oe"}
+                        "min_log_ratio": 1.0, "max_native_share": 0.05, "max_dispersion": 0.8, "measure": "oe"}
 
 
 @settings(max_examples=60, deadline=None)

@@ -72,6 +72,7 @@ def scan(
     min_g2: float = typer.Option(10.83, "--min-g2", min=0, help="Log-likelihood G2 threshold (10.83: p < .001)."),
     min_log_ratio: float = typer.Option(1.0, "--min-log-ratio", help="Log Ratio threshold (1 = twice the native rate)."),
     max_native_share: float = typer.Option(0.05, "--max-native-share", min=0, max=1, help="Not flagged when natives use the form this often (share of the governor's uses)."),
+    max_dispersion: float = typer.Option(0.8, "--max-dispersion", min=0, max=1, help="Not flagged when Gries's DP over writers is higher (use concentrated in a few writers)."),
     measure: str = typer.Option("oe", "--measure", help="Score of the collocation ratio: oe, mi or logdice."),
     term_start: Optional[str] = typer.Option(None, "--term-start", help="First day of the term, YYYY-MM-DD (orders terms; default: today)."),
     l1: Optional[str] = typer.Option(None, "--l1", help="Learners' first language (ISO 639-1) when the manifest has none."),
@@ -90,7 +91,7 @@ def scan(
     if not essays.exists():
         _fail(f"essay folder not found: {essays}")
     settings = dict(min_count=min_count, min_writers=min_writers, min_reference=min_reference, min_g2=min_g2,
-                    min_log_ratio=min_log_ratio, max_native_share=max_native_share, measure=measure)
+                    min_log_ratio=min_log_ratio, max_native_share=max_native_share, max_dispersion=max_dispersion, measure=measure)
     try:
         with Progress(console=err, transient=True, disable=quiet) as bar:
             task = bar.add_task("parsing essays", total=None)
@@ -213,8 +214,9 @@ def concordance(
     term: str = TermOpt,
     workspace: Path = WorkspaceOpt,
     width: int = typer.Option(40, "--width", min=10, help="Characters of context on each side."),
+    names: str = typer.Option("pseudonyms", "--names", help="pseudonyms (default: stable codes S01, S02 …) or real."),
 ):
-    """Print key-word-in-context lines of one pattern with writer ids."""
+    """Print key-word-in-context lines of one pattern with writer ids (pseudonymised by default)."""
     from .export import kwic
     from .history import Workspace
 
@@ -224,12 +226,16 @@ def concordance(
             atts = [a for a in ws.attachments(run["id"])
                     if a.governor == governor.lower() and a.preposition == preposition.lower()]
             texts = {e["essay_id"]: e["text"] for e in ws.essays(run["id"])}
+            codes = ws.writer_codes(class_name)
     except HingewordError as exc:
         _fail(str(exc))
+    if names not in ("pseudonyms", "real"):
+        _fail(f"--names must be 'pseudonyms' or 'real', not '{names}'", 2)
     if not atts:
         _fail(f"no '{governor} + {preposition}' in {class_name} / {term}")
     for writer, left, key, right, _ in kwic(atts, texts, width):
-        out.print(f"{writer[:14]:<14} {left:>{width}} [{key}] {right}", markup=False)
+        who = writer if names == "real" else codes.get(writer, "S??")
+        out.print(f"{who[:14]:<14} {left:>{width}} [{key}] {right}", markup=False)
     err.print(f"{len(atts)} lines")
 
 

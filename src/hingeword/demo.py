@@ -27,6 +27,16 @@ def demo_dir() -> Path:
     raise HingewordError("demo essays not found (expected demo_essays/scenario.csv in the package or checkout)")
 
 
+def _label(governor: str, prep: str) -> str:
+    return f"{governor} + object" if prep == "-" else f"{governor} + {prep}"
+
+
+def first_handout(out: Path) -> Path:
+    """The file a newcomer should open first: the evening class's last handout."""
+    rows = [r for r in scenario(demo_dir()) if r["class"] == "evening-b2"]
+    return out / rows[-1]["class"] / rows[-1]["term"] / "handout.html"
+
+
 def scenario(root: Path) -> list[dict]:
     with (root / "scenario.csv").open(encoding="utf-8") as fh:
         return list(csv.DictReader(fh))
@@ -70,7 +80,7 @@ def run_demo(
             skipped = "; ".join(f"{s.source}: {s.reason}" for s in res.ingest.skipped) or "none"
             lines.append(f"{row['class']} / {row['term']}: {len(res.ingest.essays)} essays, "
                          f"{res.ingest.word_count:,} words, {len(flagged)} patterns flagged "
-                         f"({', '.join(f'{r.governor} + {r.preposition}' for r in flagged.itertuples()) or 'none'}); "
+                         f"({', '.join(_label(r.governor, r.preposition) for r in flagged.itertuples()) or 'none'}); "
                          f"skipped: {skipped}")
             enc = [e for e in res.ingest.essays if e.encoding not in ("utf-8", "ascii", "docx", "odt")]
             for e in enc:
@@ -78,19 +88,17 @@ def run_demo(
             if row["class"] not in classes:
                 classes.append(row["class"])
         with Workspace(workspace, create=False) as ws:
-            first = None
             for row in scenario(root):
-                paths = write_reports(ws, row["class"], row["term"], out, today=today)
-                first = first or paths.handout
+                write_reports(ws, row["class"], row["term"], out, today=today)
             for cls in classes:
                 path = write_trends(ws, cls, out, today=today)
                 tr = compute_trends(ws, cls)
                 lines.append(f"{cls} trends: " + ", ".join(f"{p.label} {p.status}" for p in tr.patterns))
                 lines.append(f"  {path}")
-        last = scenario(root)[-2]
-        lines.append(f"Open first: {out / last['class']} … the latest class handout, e.g. "
-                     f"{Path(out) / last['class'] / last['term'] / 'handout.html'}")
-        lines.append(f"All reports are under {out}/ (workspace: {workspace if tmp is None else 'temporary, removed'})")
+        lines.append(f"Open first: {first_handout(out)} (the evening class's latest handout), "
+                     f"then overview.html beside it and {out / 'evening-b2' / 'trends.html'}")
+        lines.append(f"All reports are under {out}/ (workspace: {workspace if tmp is None else 'temporary, removed'}). "
+                     "Everything in the demo is invented.")
     finally:
         if tmp is not None:
             tmp.cleanup()
