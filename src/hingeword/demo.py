@@ -88,12 +88,22 @@ def run_demo(
             if row["class"] not in classes:
                 classes.append(row["class"])
         with Workspace(workspace, create=False) as ws:
+            # the teacher's review after reading the concordance (invented, like the rest)
+            decisions = root / "decisions.csv"
+            if decisions.is_file():
+                with decisions.open(encoding="utf-8") as fh:
+                    for d in csv.DictReader(fh):
+                        ws.dismiss(d["governor"], d["preposition"], class_name=d["class"], reason=d["reason"],
+                                   on=d["decided_on"])
+                        lines.append(f"teacher dismissed {_label(d['governor'], d['preposition'])} for {d['class']}: "
+                                     f"{d['reason']}")
             for row in scenario(root):
                 write_reports(ws, row["class"], row["term"], out, today=today)
             for cls in classes:
                 path = write_trends(ws, cls, out, today=today)
                 tr = compute_trends(ws, cls)
-                lines.append(f"{cls} trends: " + ", ".join(f"{p.label} {p.status}" for p in tr.patterns))
+                lines.append(f"{cls} trends: " + ", ".join(f"{p.label} {p.status}" + (" (dismissed)" if p.dismissed else "")
+                                                           for p in tr.patterns))
                 lines.append(f"  {path}")
         lines.append(f"Open first: {first_handout(out)} (the evening class's latest handout), "
                      f"then overview.html beside it and {out / 'evening-b2' / 'trends.html'}")

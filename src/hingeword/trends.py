@@ -133,6 +133,7 @@ def chart_overview(tr: Trends, top: int = 6) -> str:
     import matplotlib.pyplot as plt
 
     plt.rcParams["svg.hashsalt"] = "hingeword"  # stable ids: reproducible files
+    plt.rcParams["svg.fonttype"] = "none"  # text stays text: smaller, searchable, no font outlines
     fig, ax = plt.subplots(figsize=(7, 3.4))
     labels = [t["term"] for t in tr.terms]
     markers = "osD^vP*X"
@@ -159,6 +160,7 @@ def chart_pattern(tr: Trends, p: PatternTrend) -> str:
     import matplotlib.pyplot as plt
 
     plt.rcParams["svg.hashsalt"] = "hingeword"
+    plt.rcParams["svg.fonttype"] = "none"
     fig, ax = plt.subplots(figsize=(2.8, 1.6))
     labels = [t["term"] for t in tr.terms]
     rates = [c.rate for c in p.cells]
