@@ -13,6 +13,7 @@ from collections.abc import Callable
 from importlib import resources
 from pathlib import Path
 
+from . import __version__
 from .errors import HingewordError
 
 
@@ -87,6 +88,8 @@ def run_demo(
                 lines.append(f"  read {e.source} from the legacy encoding {e.encoding}")
             if row["class"] not in classes:
                 classes.append(row["class"])
+            model_line = f"model {res.model} · reference {res.reference_name} · hingeword {__version__}"
+        lines.insert(0, model_line)
         with Workspace(workspace, create=False) as ws:
             # the teacher's review after reading the concordance (invented, like the rest)
             decisions = root / "decisions.csv"
