@@ -1,0 +1,149 @@
+"""Read a class's essays from a folder: plain text, Word, OpenDocument and CSV tables.
+
+:func:`read_essays` walks the folder, decodes each supported file, assigns writer
+ids (optionally from a manifest CSV), and reports what it could not use in
+``skipped`` instead of stopping. Only a missing folder or an unusable manifest
+raises :class:`~hingeword.errors.IngestError`.
+
+Supported files: ``.txt`` (encoding detected), ``.docx`` (python-docx), ``.odt``
+(odfpy) and ``.csv`` essay tables with ``writer`` and ``text`` columns.
+
+Modules: :mod:`~hingeword.ingest.records` (the records), :mod:`~hingeword.ingest.walk`
+(folder walking, links, the manifest), :mod:`~hingeword.ingest.decode` (encodings,
+``.docx``, ``.odt``), :mod:`~hingeword.ingest.tables` (CSV essay tables) and
+:mod:`~hingeword.ingest.duplicates`. Every public name is importable from
+``hingeword.ingest``.
+"""
+
+from __future__ import annotations
+
+import logging
+import zipfile
+from pathlib import Path
+
+from hingeword.errors import IngestError
+
+from .decode import _BOMS, _decode, _docx_text, _normalise, _odt_text, _short, _size
+from .duplicates import _exact_duplicates, _near_duplicates
+from .records import Essay, IngestResult, NearDuplicate, Skipped, _essay, _Found, _Info
+from .tables import _csv_essays
+from .walk import _order_key, _read_manifest, _scan
+
+__all__ = ["SUPPORTED", "Essay", "IngestResult", "NearDuplicate", "Skipped", "read_essays"]
+
+log = logging.getLogger("hingeword")
+
+SUPPORTED = (".txt", ".docx", ".odt", ".csv")
+_USE = "use .txt, .docx, .odt or .csv"
+
+
+def read_essays(folder: str | Path, *, manifest: str | Path | None = None,
+                max_bytes: int = 2_000_000,
+                near_duplicate_threshold: float = 95.0) -> IngestResult:
+    """Read every essay under ``folder``.
+
+    :param folder: the essay folder; searched recursively in sorted order.
+    :param manifest: optional CSV with columns ``file`` and ``writer`` (plus
+        ``l1``, ``level``, ``task`` and any others) that sets the writer and
+        metadata of the files it names. ``file`` is relative to ``folder``.
+    :param max_bytes: files larger than this are skipped unread.
+    :param near_duplicate_threshold: rapidfuzz ratio (0..100) from which two
+        different essays are reported as near-duplicates.
+    :returns: essays in a deterministic order, plus skipped items and duplicates.
+    :raises IngestError: the folder or the manifest cannot be used at all.
+    """
+    if max_bytes <= 0:
+        raise ValueError("max_bytes must be positive")
+    if not 0 <= near_duplicate_threshold <= 100:
+        raise ValueError("near_duplicate_threshold must be between 0 and 100")
+    root = Path(folder)
+    if not root.exists():
+        raise IngestError(f"essay folder not found: {root}")
+    if not root.is_dir():
+        raise IngestError(f"not a folder: {root} (give the folder that holds the essays)")
+    root_res = root.resolve()
+    skipped: list[Skipped] = []
+    found = _scan(root, root_res, skipped)
+
+    manifest_rows: dict[Path, _Info] = {}
+    manifest_skips: list[Skipped] = []
+    if manifest is not None:
+        mpath = Path(manifest)
+        manifest_rows = _read_manifest(mpath, root, root_res, found, manifest_skips)
+        mres = mpath.resolve()
+        if any(f.resolved == mres for f in found):
+            log.debug("manifest %s lies in the essay folder; not read as an essay", mpath)
+        found = [f for f in found if f.resolved != mres]
+
+    essays: list[Essay] = []
+    for f in found:
+        essays.extend(_read_one(f, max_bytes, manifest_rows.get(f.resolved), skipped))
+    skipped.sort(key=lambda s: _order_key(s.source))
+    skipped.extend(manifest_skips)
+
+    result = IngestResult(essays, skipped, _exact_duplicates(essays),
+                          _near_duplicates(essays, near_duplicate_threshold))
+    log.info("read %d essays (%d words) from %s; %d skipped, %d duplicate groups, "
+             "%d near-duplicate pairs", len(essays), result.word_count, root,
+             len(skipped), len(result.duplicates), len(result.near_duplicates))
+    return result
+
+
+# --- reading one file ------------------------------------------------------------
+
+def _default_writer(rel: str) -> str:
+    parts = rel.split("/")
+    return parts[0] if len(parts) > 1 else Path(parts[0]).stem
+
+
+def _read_one(f: _Found, max_bytes: int, info: _Info | None,
+              skipped: list[Skipped]) -> list[Essay]:
+    """Read one file into essays (several for a CSV table); record problems in ``skipped``."""
+    suffix = Path(f.rel).suffix.lower()
+    if suffix not in SUPPORTED:
+        what = f"unsupported file type '{suffix}'" if suffix else "file has no extension"
+        skipped.append(Skipped(f.rel, f"{what} ({_USE})"))
+        return []
+    try:
+        size = f.path.stat().st_size
+        if size > max_bytes:
+            shown = (_size(max_bytes), _size(size))
+            if shown[0] == shown[1]:
+                shown = (f"{max_bytes:,} bytes", f"{size:,} bytes")
+            skipped.append(Skipped(f.rel, f"larger than {shown[0]} limit ({shown[1]})"))
+            return []
+        if size == 0:
+            skipped.append(Skipped(f.rel, "empty file"))
+            return []
+        if suffix in (".docx", ".odt"):
+            kind = suffix[1:]
+            try:
+                if not zipfile.is_zipfile(f.path):
+                    raise ValueError(f"not a {suffix} file (damaged, or another format renamed)")
+                raw = _docx_text(f.path) if kind == "docx" else _odt_text(f.path)
+            except Exception as exc:  # noqa: BLE001 - any parser failure is per-file
+                skipped.append(Skipped(f.rel, f"could not be read as {suffix}: {_short(exc)}"))
+                return []
+            decoded: tuple[str, str] | None = (raw, kind)
+        else:
+            data = f.path.read_bytes()
+            if b"\x00" in data[:8192] and not data.startswith(
+                    tuple(b for b, _ in _BOMS)):
+                skipped.append(Skipped(f.rel, "binary file (not text)"))
+                return []
+            decoded = _decode(data)
+    except OSError as exc:
+        skipped.append(Skipped(f.rel, f"could not be read: {exc.strerror or exc}"))
+        return []
+    if decoded is None:
+        skipped.append(Skipped(f.rel, "encoding could not be detected (save it as UTF-8)"))
+        return []
+    text, encoding = decoded
+    if suffix == ".csv":
+        return _csv_essays(f.rel, text, encoding, info, skipped)
+    text = _normalise(text)
+    if not text:
+        skipped.append(Skipped(f.rel, "empty file"))
+        return []
+    info = info or _Info(_default_writer(f.rel), None, None, None, {})
+    return [_essay(f.rel, text, f.rel, encoding, info)]

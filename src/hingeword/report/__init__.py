@@ -1,0 +1,152 @@
+"""Report stage: printable HTML handouts, the teacher overview and per-student sheets.
+
+Only this package touches jinja2. The ``build_*_context`` functions are pure (a
+:class:`RunData` in, a plain dict out) so that tests can check what each template
+receives; :func:`render` turns one context into HTML; :func:`write_reports` does
+both for one stored run and writes, into ``out_dir/<class>/<term>/``:
+
+* ``handout.html`` — for students: the top over-used patterns, the native pattern,
+  the likely reason, the class's own sentences and one practice item each;
+* ``handout-teacher.html`` — the same with the answer key;
+* ``overview.html`` — for the teacher: every pattern with its figures, causes and
+  evidence, concordance lines, skipped essays, notes, thresholds, dismissed patterns;
+* ``students.html`` — one printed page per writer with their own flagged sentences;
+* ``patterns.csv`` — the figures in the export column contract.
+
+:func:`write_trends` writes ``out_dir/<class>/trends.html`` from
+:func:`hingeword.trends.compute_trends`, with the charts as inline SVG.
+
+Essay text is untrusted: it reaches templates only as plain strings or as lists
+of ``(text, is_key)`` segments, and the environment autoescapes everything.
+
+Modules: :mod:`~hingeword.report.text` (segments, sentence views, answer key,
+number formatting), :mod:`~hingeword.report.context` (:class:`RunData`,
+:func:`load_run`, handout and student-sheet contexts),
+:mod:`~hingeword.report.overview` (overview and trends contexts) and
+:mod:`~hingeword.report.rendering` (the jinja2 environment). Every public name is
+importable from ``hingeword.report``; the templates stay in ``hingeword/templates``.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import logging
+from dataclasses import dataclass
+from pathlib import Path
+
+from ..errors import HingewordError
+from ..export import patterns_frame, write_patterns
+from ..history import Workspace
+from .context import (
+    SHEET_SENTENCES,
+    RunData,
+    build_handout_context,
+    build_students_context,
+    learner_reason,
+    load_run,
+    pick_examples,
+)
+from .overview import KWIC_LINES, TREND_CHART_PATTERNS, build_overview_context, build_trends_context
+from .rendering import environment, render
+from .text import (
+    MAX_SENTENCE_CHARS,
+    Segments,
+    SentenceView,
+    Span,
+    answer_key,
+    fmt_dec,
+    fmt_int,
+    fmt_ratio,
+    fmt_share,
+    pattern_label,
+    segments,
+    sentence_view,
+    short_label,
+    slugify,
+)
+
+__all__ = [
+    "KWIC_LINES", "MAX_SENTENCE_CHARS", "NAMES", "SHEET_SENTENCES", "TREND_CHART_PATTERNS",
+    "ReportPaths", "RunData", "Segments", "SentenceView", "Span",
+    "answer_key", "build_handout_context", "build_overview_context", "build_students_context",
+    "build_trends_context", "environment", "fmt_dec", "fmt_int", "fmt_ratio", "fmt_share",
+    "learner_reason", "load_run", "pattern_label", "pick_examples", "render", "segments",
+    "sentence_view", "short_label", "slugify", "write_reports", "write_trends",
+]
+
+log = logging.getLogger("hingeword")
+
+NAMES = ("pseudonyms", "real")
+
+
+@dataclass(frozen=True)
+class ReportPaths:
+    """Where :func:`write_reports` put each file."""
+
+    folder: Path
+    handout: Path
+    handout_teacher: Path
+    overview: Path
+    students: Path
+    patterns_csv: Path
+
+
+def write_reports(ws: Workspace, class_name: str, term: str, out_dir: Path, *, top: int = 5,
+                  names: str = "pseudonyms", today: str | None = None,
+                  template_dir: Path | None = None) -> ReportPaths:
+    """Write the handouts, overview, student sheets and ``patterns.csv`` of one run.
+
+    :param ws: the workspace holding the run.
+    :param out_dir: reports go to ``out_dir/<class>/<term>/`` (names slugified).
+    :param top: patterns on the class handout.
+    :param names: ``"pseudonyms"`` (writer codes, the default) or ``"real"``.
+    :param today: the date printed on the pages (default: today, ISO format).
+    :param template_dir: a folder of templates that replace the bundled ones by name.
+    :raises HingewordError: unknown ``names``, no such run, or a broken template.
+    """
+    if names not in NAMES:
+        raise HingewordError(f"names must be 'pseudonyms' or 'real', not '{names}'")
+    today = today or _dt.date.today().isoformat()
+    data = load_run(ws, class_name, term)
+    env = environment(template_dir)
+    folder = Path(out_dir) / slugify(class_name) / slugify(term)
+    folder.mkdir(parents=True, exist_ok=True)
+    paths = ReportPaths(folder=folder, handout=folder / "handout.html", handout_teacher=folder / "handout-teacher.html",
+                        overview=folder / "overview.html", students=folder / "students.html",
+                        patterns_csv=folder / "patterns.csv")
+    pages = (
+        (paths.handout, "handout.html", build_handout_context(data, top=top, today=today, teacher=False)),
+        (paths.handout_teacher, "handout.html", build_handout_context(data, top=top, today=today, teacher=True)),
+        (paths.overview, "overview.html", build_overview_context(data, names=names, today=today)),
+        (paths.students, "students.html", build_students_context(data, names=names, today=today)),
+    )
+    for path, template, context in pages:
+        path.write_text(render(template, context, env=env), encoding="utf-8")
+    write_patterns(patterns_frame(list(data.figures)), paths.patterns_csv)
+    log.info("reports for %s / %s written to %s", class_name, term, folder)
+    return paths
+
+
+def write_trends(ws: Workspace, class_name: str, out_dir: Path, *, today: str | None = None, match: bool = False,
+                 template_dir: Path | None = None) -> Path:
+    """Write ``out_dir/<class>/trends.html``: terms, charts and every pattern flagged in some term.
+
+    :param match: also list fuzzy matches of writer names between consecutive terms.
+    :returns: the path written.
+    """
+    from ..trends import chart_overview, chart_pattern, compute_trends, writer_matches
+
+    today = today or _dt.date.today().isoformat()
+    tr = compute_trends(ws, class_name)
+    matches = []
+    if match:
+        for t in tr.terms:
+            matches += [(t["term"], cur, prev, score) for cur, prev, score in writer_matches(ws, t["class"], t["term"])]
+    context = build_trends_context(
+        tr, today=today, overview_chart=chart_overview(tr, top=TREND_CHART_PATTERNS) if tr.patterns else "",
+        pattern_charts={p.key: chart_pattern(tr, p) for p in tr.patterns if not p.dismissed}, matches=matches)
+    path = Path(out_dir) / slugify(class_name) / "trends.html"
+    path.parent.mkdir(parents=True, exist_ok=True)
+    path.write_text(render("trends.html", context, template_dir=template_dir), encoding="utf-8")
+    log.info("trends for %s written to %s", class_name, path)
+    return path
