@@ -107,7 +107,8 @@ def scan(
         _write_reports(workspace, class_name, term, out_dir, top=5, names=names)
 
 
-def _write_reports(workspace: Path, class_name: str, term: str, out_dir: Path, *, top: int, names: str) -> None:
+def _write_reports(workspace: Path, class_name: str, term: str, out_dir: Path, *, top: int, names: str,
+                   match: bool = False) -> None:
     from .history import Workspace
     from .report import write_reports
 
@@ -115,7 +116,7 @@ def _write_reports(workspace: Path, class_name: str, term: str, out_dir: Path, *
         _fail(f"--names must be 'pseudonyms' or 'real', not '{names}'", 2)
     try:
         with Workspace(workspace, create=False) as ws:
-            paths = write_reports(ws, class_name, term, out_dir, top=top, names=names)
+            paths = write_reports(ws, class_name, term, out_dir, top=top, names=names, match=match)
     except HingewordError as exc:
         _fail(str(exc))
     out.print(f"reports written to {paths.folder}; open {paths.handout} first", markup=False)
@@ -129,9 +130,10 @@ def report(
     out_dir: Path = typer.Option(Path("hingeword-reports"), "--out", help="Folder to write into."),
     top: int = typer.Option(5, "--top", min=1, help="Patterns on the class handout."),
     names: str = typer.Option("pseudonyms", "--names", help="pseudonyms (default) or real."),
+    match_writers: bool = typer.Option(False, "--match-writers", help="Link writers to last term's by name similarity (see 'trends --match-writers')."),
 ):
     """Write the class handout (with teacher copy), teacher overview, student sheets and patterns.csv."""
-    _write_reports(workspace, class_name, term, out_dir, top=top, names=names)
+    _write_reports(workspace, class_name, term, out_dir, top=top, names=names, match=match_writers)
 
 
 def print_scan_summary(result, top: int) -> None:

@@ -101,7 +101,7 @@ def run_demo(
                         lines.append(f"teacher dismissed {_label(d['governor'], d['preposition'])} for {d['class']}: "
                                      f"{d['reason']}")
             for row in scenario(root):
-                write_reports(ws, row["class"], row["term"], out, today=today)
+                write_reports(ws, row["class"], row["term"], out, today=today, match=True)
             for cls in classes:
                 path = write_trends(ws, cls, out, today=today)
                 tr = compute_trends(ws, cls)

@@ -93,7 +93,7 @@ class ReportPaths:
 
 def write_reports(ws: Workspace, class_name: str, term: str, out_dir: Path, *, top: int = 5,
                   names: str = "pseudonyms", today: str | None = None,
-                  template_dir: Path | None = None) -> ReportPaths:
+                  template_dir: Path | None = None, match: bool = False) -> ReportPaths:
     """Write the handouts, overview, student sheets and ``patterns.csv`` of one run.
 
     :param ws: the workspace holding the run.
@@ -102,12 +102,13 @@ def write_reports(ws: Workspace, class_name: str, term: str, out_dir: Path, *, t
     :param names: ``"pseudonyms"`` (writer codes, the default) or ``"real"``.
     :param today: the date printed on the pages (default: today, ISO format).
     :param template_dir: a folder of templates that replace the bundled ones by name.
+    :param match: link writers to last term's by name similarity for the progress lines.
     :raises HingewordError: unknown ``names``, no such run, or a broken template.
     """
     if names not in NAMES:
         raise HingewordError(f"names must be 'pseudonyms' or 'real', not '{names}'")
     today = today or _dt.date.today().isoformat()
-    data = load_run(ws, class_name, term)
+    data = load_run(ws, class_name, term, match=match)
     env = environment(template_dir)
     folder = Path(out_dir) / slugify(class_name) / slugify(term)
     folder.mkdir(parents=True, exist_ok=True)

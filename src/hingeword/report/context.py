@@ -33,6 +33,9 @@ class RunData:
     skipped: tuple[dict, ...] = ()
     notes: tuple[dict, ...] = ()
     codes: tuple[tuple[str, str], ...] = ()  # (writer, pseudonym)
+    previous_term: str | None = None
+    #: (writer, rows) with rows {governor, governor_pos, preposition, last_term, this_term}
+    progress: tuple[tuple[str, tuple[dict, ...]], ...] = ()
 
 
 _ORDER = {s: i for i, s in enumerate(STATUSES)}
@@ -115,17 +118,55 @@ def pick_examples(atts: list[Attachment], k: int = 3) -> tuple[list[SentenceView
 # ------------------------------------------------------------------ loading
 
 
-def load_run(ws: Workspace, class_name: str, term: str) -> RunData:
+def load_run(ws: Workspace, class_name: str, term: str, *, match: bool = False) -> RunData:
     """Read one run from the workspace, figures with the teacher's decisions and the
-    comparison with last term (raises :class:`~hingeword.errors.WorkspaceError` if absent)."""
+    comparison with last term (raises :class:`~hingeword.errors.WorkspaceError` if absent).
+
+    :param match: also link writer ids of the previous term by name similarity
+        (:func:`hingeword.trends.writer_matches`) for the per-writer progress.
+    """
     run = dict(ws.run(class_name, term))
     rid = run["id"]
+    figures = tuple(ws.figures_in_context(class_name, term))
+    order = ws.runs_in_order(class_name)
+    ids = [r["id"] for r in order]
+    previous = order[ids.index(rid) - 1] if rid in ids and ids.index(rid) > 0 else None
+    progress: tuple = ()
+    if previous is not None:
+        decided = ws.decisions_for(class_name)
+        keys = {_key(f) for f in figures if f.get("flagged") and not f.get("dismissed")}
+        keys |= {_key(f) for f in ws.figures(previous["id"])
+                 if f.get("flagged") and (f["governor"], f["preposition"]) not in decided}
+        same = {}
+        if match:
+            from ..trends import writer_matches
+
+            same = {cur: prev for cur, prev, _ in writer_matches(ws, class_name, term)}
+        rows = ws.writer_progress(class_name, term, sorted(keys), same_writer=same)
+        progress = tuple(sorted((w, tuple(r)) for w, r in rows.items()))
     return RunData(
-        class_name=class_name, term=term, run=run, figures=tuple(ws.figures_in_context(class_name, term)),
+        class_name=class_name, term=term, run=run, figures=figures,
         attachments=tuple(ws.attachments(rid)), essays=tuple(dict(e) for e in ws.essays(rid)),
         skipped=tuple(dict(s) for s in ws.skipped(rid)), notes=tuple(dict(n) for n in ws.notes(rid)),
         codes=tuple(sorted(ws.writer_codes(class_name).items())),
+        previous_term=previous["term"] if previous is not None else None, progress=progress,
     )
+
+
+def since_for_learners(line: str | None, teacher: bool) -> str | None:
+    """The "since last term" line in words for students (figures kept on the teacher copy)."""
+    if not line or line.startswith("first term") or line.startswith("not seen"):
+        return None
+    figures = line[line.find("("):] if teacher and "(" in line else ""
+    if line.startswith("also flagged"):
+        text = "We wrote this last term too."
+    elif line.startswith("seen last term"):
+        text = "A few of us wrote this last term too."
+    elif line.startswith("new this term"):
+        text = "New this term."
+    else:
+        text = line[0].upper() + line[1:]
+    return f"{text} {figures}".strip()
 
 
 # ------------------------------------------------------------------ contexts
@@ -158,6 +199,7 @@ def build_handout_context(data: RunData, *, top: int = 5, today: str, teacher: b
             "no_preposition": f["preposition"] == NO_PREP,
             "native_pattern": native, "suggestion": suggestion,
             "reason": learner_reason(f), "explanation": f.get("explanation") or None,
+            "since": since_for_learners(f.get("since_last_term"), teacher),
             "writers": int(_num(f.get("learner_writers")) or 0),
             "examples": [{"segments": v.segments} for v in examples],
             "practice": item,
@@ -179,6 +221,7 @@ def build_students_context(data: RunData, *, names: str = "pseudonyms", today: s
     essays: dict[str, list[dict]] = {}
     for e in data.essays:
         essays.setdefault(e["writer"], []).append(e)
+    progress = dict(data.progress)
     students = []
     for writer in essays:
         groups = []
@@ -196,9 +239,12 @@ def build_students_context(data: RunData, *, names: str = "pseudonyms", today: s
         students.append({"label": label, "anchor": "", "essays": len(essays[writer]),
                          "words": fmt_int(sum(int(e.get("words") or 0) for e in essays[writer])),
                          "patterns": groups, "nothing_flagged": not groups,
+                         "progress": [{"class_pattern": pattern_label(r["governor"], r["preposition"]),
+                                       "last_term": r["last_term"], "this_term": r["this_term"]}
+                                      for r in progress.get(writer, ())],
                          "sentence_count": sum(len(g["sentences"]) for g in groups)})
     students.sort(key=lambda s: (s["label"].casefold(), s["label"]))
     for i, s in enumerate(students, start=1):
         s["anchor"] = f"sheet-{i}"
     return {**_common(data, today, f"Feedback sheets: {data.class_name}, {data.term}"), "names": names,
-            "students": students}
+            "students": students, "previous_term": data.previous_term}
