@@ -163,7 +163,8 @@ def print_scan_summary(result, top: int) -> None:
         out.print("Likely reasons and native use:")
         for r in flagged.head(top).itertuples():
             f = by_key.get((r.governor, r.governor_pos, r.preposition), {})
-            out.print(f"  {r.governor} + {r.preposition}: {f.get('cause', '')} → {f.get('suggestion', '')} "
+            label = f"{r.governor} + {'object' if r.preposition == '-' else r.preposition}"
+            out.print(f"  {label}: {f.get('cause', '')} → {f.get('suggestion', '')} "
                       f"— {f.get('explanation', '')}", markup=False)
     under = df[df.status == "under-used"]
     if len(under):
@@ -179,8 +180,10 @@ def print_scan_summary(result, top: int) -> None:
 def pattern_lines(df) -> list[str]:
     lines = []
     for r in df.itertuples():
+        label = f"{r.governor} + {'object' if r.preposition == '-' else r.preposition}"
+        writers = f"{r.learner_writers} writer{'' if r.learner_writers == 1 else 's'}"
         lines.append(
-            f"{r.governor + ' + ' + r.preposition:<24} {r.learner_count:>3}× by {r.learner_writers} writers "
+            f"{label:<24} {r.learner_count:>3}× by {writers} "
             f"({100 * r.learner_share:.0f}% of {r.governor}); native {r.reference_count} of "
             f"{r.reference_governor_count} ({100 * r.reference_share:.1f}%); LR {r.log_ratio:+.1f}, G2 {r.log_likelihood:.1f}"
         )
