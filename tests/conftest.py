@@ -160,7 +160,7 @@ def store_hand_run(workspace: Path, *, class_name: str = "morning-a2", term: str
     ref = Reference(manifest={"name": "hand"},
                     patterns=Counter({("discuss", "VERB", "-"): 40, ("discuss", "VERB", "with"): 5,
                                       ("talk", "VERB", "about"): 30}))
-    scored, used = score_run(count_patterns(atts), atts, essays, ref, {"min_reference": 5})
+    scored, used = score_run(count_patterns(atts), atts, ref, {"min_reference": 5})
     with Workspace(workspace) as ws:
         return ws.replace_run(
             class_name=class_name, term=term,

@@ -16,12 +16,10 @@ import pandas as pd
 
 from .errors import HingewordError
 from .extract import Attachment
+from .score import CONTRACT as SCORE_CONTRACT
+from .score import EXTRA
 
-CONTRACT = [
-    "governor", "governor_pos", "preposition", "learner_count", "learner_writers", "learner_governor_count",
-    "reference_count", "reference_governor_count", "collocation_ratio", "log_likelihood", "log_ratio",
-    "flagged", "status", "cause", "suggestion",
-]
+CONTRACT = [*SCORE_CONTRACT, "cause", "suggestion"]
 SUFFIXES = (".csv", ".xlsx", ".json")
 
 
@@ -31,8 +29,6 @@ def patterns_frame(figures: list[dict]) -> pd.DataFrame:
     for col in CONTRACT:
         if col not in df.columns:
             df[col] = "" if col in ("cause", "suggestion", "status") else pd.NA
-    from .score import EXTRA
-
     extra = [c for c in EXTRA if c in df.columns] + sorted(c for c in df.columns if c not in CONTRACT and c not in EXTRA)
     return df[CONTRACT + extra]
 

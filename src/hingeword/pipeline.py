@@ -102,7 +102,7 @@ def scan(
         groups.update(participle_map(unmatched, reference.lemmas))
         attachments = regroup_typos(attachments, groups)
         counts = count_patterns(attachments)
-        scored, used = score_run(counts, attachments, ingest.essays, reference, settings or {})
+        scored, used = score_run(counts, attachments, reference, settings or {})
         l1_of = {e.writer: (e.l1 or l1 or "").strip().lower() for e in ingest.essays}
         l1_by_pattern: dict = defaultdict(Counter)
         for a in attachments:

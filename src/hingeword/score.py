@@ -199,7 +199,7 @@ def _governor_writers(attachments: Sequence) -> dict[tuple[str, str], int]:
     return {k: len(v) for k, v in w.items()}
 
 
-def score_run(counts: pd.DataFrame, attachments: Sequence, essays: Sequence, reference, settings: Mapping):
+def score_run(counts: pd.DataFrame, attachments: Sequence, reference, settings: Mapping):
     """Score a scan; returns (DataFrame, settings actually used)."""
     s = settings_with_defaults(settings)
     return score_patterns(counts, attachments, reference, s), s
