@@ -220,7 +220,7 @@ def _zip_without_docx_parts() -> bytes:
     ("image.txt", b"GIF89a\x01\x00\x01\x00\x00\xff", "binary file (not text)"),
     ("scan.pdf", b"%PDF-1.4 fake", "unsupported file type '.pdf' (use .txt, .docx, .odt or .csv)"),
     ("README", b"notes", "file has no extension (use .txt, .docx, .odt or .csv)"),
-    ("noise.txt", bytes(range(1, 256)) * 4, "encoding could not be detected (save it as UTF-8)"),
+    ("noise.txt", bytes(range(1, 256)) * 4, "encoding could not be detected (save it as UTF-8, or give --encoding)"),
     ("renamed.docx", b"plain text, not Word",
      "could not be read as .docx: not a .docx file (damaged, or another format renamed)"),
     ("broken.odt", b"PK\x03\x04 truncated",
@@ -548,3 +548,30 @@ def test_ingest_never_prints(tmp_path, capsys):
     _write(tmp_path / "bad.pdf", b"%PDF")
     read_essays(tmp_path)
     assert capsys.readouterr() == ("", "")
+
+
+def test_ingest_forced_encoding_reads_what_detection_misses(tmp_path):
+    # Turkish in cp1254 among English words: detection alone tends to pick cp1252
+    # ("Ayþe"); --encoding cp1254 gives the right letters. Text invented for the test.
+    folder = tmp_path / "essays"
+    folder.mkdir()
+    text = "My friend Ayşe and I discussed the plan in Istanbul, near the Boğaz, last summer."
+    (folder / "ayse.txt").write_bytes(text.encode("cp1254"))
+    (folder / "plain.txt").write_text("We talked about the weather.", encoding="utf-8")
+    forced = read_essays(folder, encoding="cp1254")
+    by_id = {e.essay_id: e for e in forced.essays}
+    assert by_id["ayse.txt"].text == text and by_id["ayse.txt"].encoding == "cp1254"
+    assert by_id["plain.txt"].encoding == "utf-8"  # UTF-8 files are read as UTF-8 whatever is forced
+
+
+def test_ingest_forced_encoding_that_does_not_fit_is_skipped(tmp_path):
+    folder = tmp_path / "essays"
+    folder.mkdir()
+    (folder / "x.txt").write_bytes("Zoë went to the café.".encode("cp1252") + b"\x81\x8d")
+    result = read_essays(folder, encoding="cp1253")  # 0x81 is undefined in cp1253
+    assert [s.reason for s in result.skipped] == ["does not decode as cp1253 (check --encoding)"]
+
+
+def test_ingest_unknown_encoding_is_a_clear_error(tmp_path):
+    with pytest.raises(IngestError, match="unknown encoding 'klingon-8'"):
+        read_essays(tmp_path, encoding="klingon-8")

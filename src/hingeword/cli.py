@@ -77,6 +77,7 @@ def scan(
     term_start: Optional[str] = typer.Option(None, "--term-start", help="First day of the term, YYYY-MM-DD (orders terms; default: today)."),
     l1: Optional[str] = typer.Option(None, "--l1", help="Learners' first language (ISO 639-1) when the manifest has none."),
     rules: list[Path] = typer.Option([], "--rules", help="Extra rules folder overlaying the bundled rules (repeatable)."),
+    encoding: Optional[str] = typer.Option(None, "--encoding", help="Decode non-UTF-8 text files with this codec (e.g. cp1254) instead of guessing."),
     top: int = typer.Option(10, "--top", min=0, help="How many patterns to list."),
     report: bool = typer.Option(False, "--report", help="Also write the handouts, overview and student sheets."),
     out_dir: Path = typer.Option(Path("hingeword-reports"), "--out", help="Folder for reports (with --report)."),
@@ -98,7 +99,7 @@ def scan(
             result = run_scan(
                 essays, class_name=class_name, term=term, workspace=workspace, manifest=manifest, model=model,
                 processes=processes, references=reference, settings=settings, term_start=term_start, l1=l1,
-                rules_dirs=rules, progress=lambda done, total: bar.update(task, completed=done, total=total),
+                rules_dirs=rules, encoding=encoding, progress=lambda done, total: bar.update(task, completed=done, total=total),
             )
     except HingewordError as exc:
         _fail(str(exc))

@@ -63,6 +63,7 @@ def scan(
     term_start: str | None = None,
     l1: str | None = None,
     rules_dirs: Sequence[str | Path] = (),
+    encoding: str | None = None,
     progress: Callable[[int, int], None] | None = None,
 ) -> ScanResult:
     """Scan one class's essays for one term and store the run in the workspace.
@@ -75,7 +76,7 @@ def scan(
     from .rules import load_rules
     from .score import score_run
 
-    ingest = read_essays(folder, manifest=manifest)
+    ingest = read_essays(folder, manifest=manifest, encoding=encoding)
     rules = load_rules([Path(d) for d in rules_dirs])
     reference = ref_mod.load_many(references, workspace)
     nlp, info = load_model(model)

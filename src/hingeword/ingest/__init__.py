@@ -17,6 +17,8 @@ Modules: :mod:`~hingeword.ingest.records` (the records), :mod:`~hingeword.ingest
 
 from __future__ import annotations
 
+import codecs
+
 import logging
 import zipfile
 from pathlib import Path
@@ -39,7 +41,8 @@ _USE = "use .txt, .docx, .odt or .csv"
 
 def read_essays(folder: str | Path, *, manifest: str | Path | None = None,
                 max_bytes: int = 2_000_000,
-                near_duplicate_threshold: float = 95.0) -> IngestResult:
+                near_duplicate_threshold: float = 95.0,
+                encoding: str | None = None) -> IngestResult:
     """Read every essay under ``folder``.
 
     :param folder: the essay folder; searched recursively in sorted order.
@@ -49,9 +52,19 @@ def read_essays(folder: str | Path, *, manifest: str | Path | None = None,
     :param max_bytes: files larger than this are skipped unread.
     :param near_duplicate_threshold: rapidfuzz ratio (0..100) from which two
         different essays are reported as near-duplicates.
+    :param encoding: decode text files that are not UTF-8 with this codec instead of
+        guessing (for a class whose files the detection gets wrong, e.g. ``cp1254``).
     :returns: essays in a deterministic order, plus skipped items and duplicates.
-    :raises IngestError: the folder or the manifest cannot be used at all.
+    :raises IngestError: the folder or the manifest cannot be used at all, or an
+        unknown ``encoding``.
+
+    .. versionadded:: 0.1.0 ``encoding``
     """
+    if encoding:
+        try:
+            codecs.lookup(encoding)
+        except LookupError:
+            raise IngestError(f"unknown encoding '{encoding}' (try utf-8, cp1252, cp1250, latin-1)") from None
     if max_bytes <= 0:
         raise ValueError("max_bytes must be positive")
     if not 0 <= near_duplicate_threshold <= 100:
@@ -77,7 +90,7 @@ def read_essays(folder: str | Path, *, manifest: str | Path | None = None,
 
     essays: list[Essay] = []
     for f in found:
-        essays.extend(_read_one(f, max_bytes, manifest_rows.get(f.resolved), skipped))
+        essays.extend(_read_one(f, max_bytes, manifest_rows.get(f.resolved), skipped, encoding))
     skipped.sort(key=lambda s: _order_key(s.source))
     skipped.extend(manifest_skips)
 
@@ -97,7 +110,7 @@ def _default_writer(rel: str) -> str:
 
 
 def _read_one(f: _Found, max_bytes: int, info: _Info | None,
-              skipped: list[Skipped]) -> list[Essay]:
+              skipped: list[Skipped], encoding: str | None = None) -> list[Essay]:
     """Read one file into essays (several for a CSV table); record problems in ``skipped``."""
     suffix = Path(f.rel).suffix.lower()
     if suffix not in SUPPORTED:
@@ -131,12 +144,14 @@ def _read_one(f: _Found, max_bytes: int, info: _Info | None,
                     tuple(b for b, _ in _BOMS)):
                 skipped.append(Skipped(f.rel, "binary file (not text)"))
                 return []
-            decoded = _decode(data)
+            decoded = _decode(data, encoding)
     except OSError as exc:
         skipped.append(Skipped(f.rel, f"could not be read: {exc.strerror or exc}"))
         return []
     if decoded is None:
-        skipped.append(Skipped(f.rel, "encoding could not be detected (save it as UTF-8)"))
+        reason = (f"does not decode as {encoding} (check --encoding)" if encoding
+                  else "encoding could not be detected (save it as UTF-8, or give --encoding)")
+        skipped.append(Skipped(f.rel, reason))
         return []
     text, encoding = decoded
     if suffix == ".csv":

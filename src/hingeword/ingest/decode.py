@@ -59,8 +59,11 @@ def _oddity(text: str) -> int:
     return score
 
 
-def _decode(data: bytes) -> tuple[str, str] | None:
+def _decode(data: bytes, forced: str | None = None) -> tuple[str, str] | None:
     """Decode bytes: a BOM, else strict UTF-8, else the least odd single-byte guess.
+
+    ``forced`` (the user's ``--encoding``) replaces the guessing for bytes that are
+    not UTF-8: they are decoded strictly with it, or not at all.
 
     If charset-normalizer finds no match the bytes are not text. Otherwise the
     guesses are cp1252, its best match, then the other Windows code pages; the one
@@ -81,6 +84,11 @@ def _decode(data: bytes) -> tuple[str, str] | None:
         return data.decode("utf-8-sig"), "utf-8"
     except UnicodeDecodeError:
         pass
+    if forced:
+        try:
+            return data.decode(forced), codecs.lookup(forced).name
+        except UnicodeDecodeError:
+            return None
     best = charset_normalizer.from_bytes(data).best()
     if best is None:  # charset-normalizer finds no text encoding at all
         return None
