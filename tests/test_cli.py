@@ -9,6 +9,7 @@ are invented (``conftest.py``).
 from __future__ import annotations
 
 import csv
+from pathlib import Path
 
 import pytest
 from typer.testing import CliRunner
@@ -227,3 +228,21 @@ def test_cli_reference_build_list_info(in_tmp):
 def test_cli_reference_build_bad_source(in_tmp):
     result = _invoke("reference", "build", "missing", "--name", "x", "--format", "conllu", "-w", "ws", "-q")
     _assert_one_error_line(result, "reference source folder not found: missing")
+
+
+def test_cli_export_concordance_and_decisions(hand_run, in_tmp):
+    dismissed = _invoke("dismiss", "discuss", "about", "--class", "morning-a2", "--reason", "taught already",
+                        "-w", "ws")
+    assert dismissed.exit_code == 0, dismissed.output
+    result = _invoke("export", "--class", "morning-a2", "--term", "t1", "-w", "ws", "-o", "p.csv",
+                     "--concordance", "k.csv")
+    assert result.exit_code == 0, result.output
+    patterns = list(csv.DictReader(Path("p.csv").read_text(encoding="utf-8").splitlines()))
+    about = next(r for r in patterns if (r["governor"], r["preposition"]) == ("discuss", "about"))
+    assert about["dismissed"] == "True" and about["dismissed_reason"] == "taught already"
+    lines = list(csv.DictReader(Path("k.csv").read_text(encoding="utf-8").splitlines()))
+    assert list(lines[0])[:5] == ["writer", "essay_id", "governor", "governor_pos", "preposition"]
+    keys = [line["key"] for line in lines if line["preposition"] == "about"]
+    assert keys == ["discussed about"] * 3
+    assert {line["writer"] for line in lines} <= {"S01", "S02", "S03"}  # pseudonymised by default
+    assert all(line["essay_id"] == "" for line in lines)

@@ -197,16 +197,27 @@ def export(
     term: str = TermOpt,
     workspace: Path = WorkspaceOpt,
     output: Path = typer.Option(..., "-o", "--output", help="File to write: .csv, .xlsx or .json."),
+    kwic_output: Optional[Path] = typer.Option(None, "--concordance", help="Also write every instance as a KWIC line to this .csv/.xlsx/.json file."),
+    names: str = typer.Option("pseudonyms", "--names", help="Writer ids in the concordance: pseudonyms (default) or real."),
 ):
-    """Export one row per pattern (CSV, XLSX or JSON by the file's suffix)."""
-    from .export import patterns_frame, write_patterns
+    """Export one row per pattern (CSV, XLSX or JSON by the file's suffix), with the teacher's decisions."""
+    from .export import concordance_frame, patterns_frame, write_table
     from .history import Workspace
 
+    if names not in ("pseudonyms", "real"):
+        _fail(f"--names must be 'pseudonyms' or 'real', not '{names}'", 2)
     try:
         with Workspace(workspace, create=False) as ws:
-            run = ws.run(class_name, term)
-            df = patterns_frame(ws.figures(run["id"]))
-        write_patterns(df, output)
+            df = patterns_frame(ws.figures_in_context(class_name, term))
+            if kwic_output is not None:
+                run = ws.run(class_name, term)
+                codes = None if names == "real" else ws.writer_codes(class_name)
+                texts = {e["essay_id"]: e["text"] for e in ws.essays(run["id"])}
+                kwic_df = concordance_frame(ws.attachments(run["id"]), texts, codes)
+        write_table(df, output)
+        if kwic_output is not None:
+            write_table(kwic_df, kwic_output)
+            err.print(f"wrote {len(kwic_df)} concordance lines to {kwic_output}")
     except HingewordError as exc:
         _fail(str(exc))
     err.print(f"wrote {len(df)} patterns to {output}")

@@ -35,6 +35,11 @@ def patterns_frame(figures: list[dict]) -> pd.DataFrame:
 
 def write_patterns(df: pd.DataFrame, path: str | Path) -> Path:
     """Write by the file's suffix: .csv (UTF-8), .xlsx or .json (records)."""
+    return write_table(df, path)
+
+
+def write_table(df: pd.DataFrame, path: str | Path) -> Path:
+    """Write any export table by the file's suffix: .csv (UTF-8), .xlsx or .json (records)."""
     path = Path(path)
     suffix = path.suffix.lower()
     if suffix not in SUFFIXES:
@@ -50,7 +55,7 @@ def write_patterns(df: pd.DataFrame, path: str | Path) -> Path:
     if suffix == ".csv":
         out.to_csv(path, index=False, float_format="%.6g", lineterminator="\n")
     elif suffix == ".xlsx":
-        out.to_excel(path, index=False, sheet_name="patterns")
+        out.to_excel(path, index=False, sheet_name="patterns" if "governor_pos" in out.columns and "learner_count" in out.columns else "concordance")
     else:
         records = json.loads(out.to_json(orient="records", double_precision=10))
         path.write_text(json.dumps(records, indent=1, ensure_ascii=False) + "\n", encoding="utf-8")
@@ -72,3 +77,21 @@ def kwic(attachments: list[Attachment], texts: dict[str, str], width: int = 40) 
         key = " ".join(text[start:end].split())
         lines.append((a.writer, left, key, right, a.essay_id))
     return lines
+
+
+KWIC_COLUMNS = ["writer", "essay_id", "governor", "governor_pos", "preposition", "governor_text", "left", "key",
+                "right", "sentence"]
+
+
+def concordance_frame(attachments: list[Attachment], texts: dict[str, str], codes: dict[str, str] | None,
+                      width: int = 40) -> pd.DataFrame:
+    """Every instance as a key-word-in-context row, in essay order.
+
+    :param codes: writer id -> pseudonym; ``None`` keeps the writer ids. With
+        pseudonyms the essay id (often a file named after the student) is left out.
+    """
+    rows = []
+    for a, (writer, left, key, right, essay) in zip(attachments, kwic(attachments, texts, width)):
+        rows.append([writer if codes is None else codes.get(writer, "S??"), essay if codes is None else "",
+                     a.governor, a.governor_pos, a.preposition, a.governor_text, left, key, right, a.sentence])
+    return pd.DataFrame(rows, columns=KWIC_COLUMNS)
