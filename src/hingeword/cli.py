@@ -14,6 +14,7 @@ from rich.console import Console
 
 from . import __version__
 from .errors import HingewordError
+from .patterns import key_label
 
 app = typer.Typer(
     help="Find the preposition patterns a class over-uses compared with native writing.",
@@ -36,6 +37,11 @@ TermOpt = typer.Option(..., "--term", help="Term name, e.g. '2026-spring'.")
 def _fail(msg: str, code: int = 1):
     err.print(f"Error: {msg}", markup=False)
     raise typer.Exit(code)
+
+
+def _check_names(names: str) -> None:
+    if names not in ("pseudonyms", "real"):
+        _fail(f"--names must be 'pseudonyms' or 'real', not '{names}'", 2)
 
 
 def _setup_logging(verbose: bool) -> None:
@@ -113,8 +119,7 @@ def _write_reports(workspace: Path, class_name: str, term: str, out_dir: Path, *
     from .history import Workspace
     from .report import write_reports
 
-    if names not in ("pseudonyms", "real"):
-        _fail(f"--names must be 'pseudonyms' or 'real', not '{names}'", 2)
+    _check_names(names)
     try:
         with Workspace(workspace, create=False) as ws:
             paths = write_reports(ws, class_name, term, out_dir, top=top, names=names, match=match)
@@ -164,8 +169,7 @@ def print_scan_summary(result, top: int) -> None:
         out.print("Likely reasons and native use:")
         for r in flagged.head(top).itertuples():
             f = by_key.get((r.governor, r.governor_pos, r.preposition), {})
-            label = f"{r.governor} + {'object' if r.preposition == '-' else r.preposition}"
-            out.print(f"  {label}: {f.get('cause', '')} → {f.get('suggestion', '')} "
+            out.print(f"  {key_label(r.governor, r.preposition)}: {f.get('cause', '')} → {f.get('suggestion', '')} "
                       f"— {f.get('explanation', '')}", markup=False)
     under = df[df.status == "under-used"]
     if len(under):
@@ -181,7 +185,7 @@ def print_scan_summary(result, top: int) -> None:
 def pattern_lines(df) -> list[str]:
     lines = []
     for r in df.itertuples():
-        label = f"{r.governor} + {'object' if r.preposition == '-' else r.preposition}"
+        label = key_label(r.governor, r.preposition)
         writers = f"{r.learner_writers} writer{'' if r.learner_writers == 1 else 's'}"
         lines.append(
             f"{label:<24} {r.learner_count:>3}× by {writers} "
@@ -204,8 +208,7 @@ def export(
     from .export import concordance_frame, patterns_frame, write_table
     from .history import Workspace
 
-    if names not in ("pseudonyms", "real"):
-        _fail(f"--names must be 'pseudonyms' or 'real', not '{names}'", 2)
+    _check_names(names)
     try:
         with Workspace(workspace, create=False) as ws:
             df = patterns_frame(ws.figures_in_context(class_name, term))
@@ -246,8 +249,7 @@ def concordance(
             codes = ws.writer_codes(class_name)
     except HingewordError as exc:
         _fail(str(exc))
-    if names not in ("pseudonyms", "real"):
-        _fail(f"--names must be 'pseudonyms' or 'real', not '{names}'", 2)
+    _check_names(names)
     if not atts:
         _fail(f"no '{governor} + {preposition}' in {class_name} / {term}")
     for writer, left, key, right, _ in kwic(atts, texts, width):

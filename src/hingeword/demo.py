@@ -15,6 +15,7 @@ from pathlib import Path
 
 from . import __version__
 from .errors import HingewordError
+from .patterns import key_label
 
 
 def demo_dir() -> Path:
@@ -26,10 +27,6 @@ def demo_dir() -> Path:
     if (here / "scenario.csv").is_file():
         return here
     raise HingewordError("demo essays not found (expected demo_essays/scenario.csv in the package or checkout)")
-
-
-def _label(governor: str, prep: str) -> str:
-    return f"{governor} + object" if prep == "-" else f"{governor} + {prep}"
 
 
 def first_handout(out: Path) -> Path:
@@ -81,7 +78,7 @@ def run_demo(
             skipped = "; ".join(f"{s.source}: {s.reason}" for s in res.ingest.skipped) or "none"
             lines.append(f"{row['class']} / {row['term']}: {len(res.ingest.essays)} essays, "
                          f"{res.ingest.word_count:,} words, {len(flagged)} patterns flagged "
-                         f"({', '.join(_label(r.governor, r.preposition) for r in flagged.itertuples()) or 'none'}); "
+                         f"({', '.join(key_label(r.governor, r.preposition) for r in flagged.itertuples()) or 'none'}); "
                          f"skipped: {skipped}")
             enc = [e for e in res.ingest.essays if e.encoding not in ("utf-8", "ascii", "docx", "odt")]
             for e in enc:
@@ -98,7 +95,7 @@ def run_demo(
                     for d in csv.DictReader(fh):
                         ws.dismiss(d["governor"], d["preposition"], class_name=d["class"], reason=d["reason"],
                                    on=d["decided_on"])
-                        lines.append(f"teacher dismissed {_label(d['governor'], d['preposition'])} for {d['class']}: "
+                        lines.append(f"teacher dismissed {key_label(d['governor'], d['preposition'])} for {d['class']}: "
                                      f"{d['reason']}")
             for row in scenario(root):
                 write_reports(ws, row["class"], row["term"], out, today=today, match=True)

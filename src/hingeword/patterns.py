@@ -32,6 +32,11 @@ TYPO_RATIO = 85.0
 MIN_TARGET_TOKENS = 5
 
 
+def key_label(governor: str, preposition: str) -> str:
+    """A pattern as people read it: "discuss + about", "listen + object" for the ``-`` slot."""
+    return f"{governor} + object" if preposition == "-" else f"{governor} + {preposition}"
+
+
 def count_patterns(attachments: Iterable[Attachment]) -> pd.DataFrame:
     """One row per pattern, sorted by governor, POS, preposition."""
     counts: Counter = Counter()

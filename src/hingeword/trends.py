@@ -22,6 +22,7 @@ import io
 from dataclasses import dataclass, field
 
 from .history import Workspace, per_10k
+from .patterns import key_label
 
 STATUSES = ("new", "recurring", "fading", "gone", "steady", "-")
 
@@ -50,7 +51,7 @@ class PatternTrend:
 
     @property
     def label(self) -> str:
-        return f"{self.governor} + {self.preposition}" if self.preposition != "-" else f"{self.governor} + object"
+        return key_label(self.governor, self.preposition)
 
     @property
     def status(self) -> str:
