@@ -223,7 +223,12 @@ class Workspace:
         attachments: Iterable[Attachment],
         pattern_figures: Sequence[dict] = (),
     ) -> int:
-        """Replace the run of ``class_name``/``term`` atomically; return the new run id."""
+        """Replace the run of ``class_name``/``term`` atomically; return the new run id.
+
+        A run with no essays is refused: it would silently replace a stored run with nothing.
+        """
+        if not essays:
+            raise WorkspaceError(f"refusing to store a run of {class_name} / {term} with no essays; the earlier run is kept")
         c = self.conn
         c.execute("BEGIN IMMEDIATE")
         try:

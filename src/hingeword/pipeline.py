@@ -15,6 +15,7 @@ from pathlib import Path
 
 from . import EXTRACTOR_VERSION, __version__
 from .extract import extract_doc, regroup_typos
+from .errors import IngestError
 from .history import Workspace
 from .ingest import IngestResult, read_essays
 from .parse import ModelInfo, ParseStats, default_processes, load_model, parse_texts
@@ -77,6 +78,14 @@ def scan(
     from .score import score_run
 
     ingest = read_essays(folder, manifest=manifest, encoding=encoding)
+    if not ingest.essays:
+        reasons = "; ".join(f"{s.source}: {s.reason}" for s in ingest.skipped[:3])
+        more = f" (and {len(ingest.skipped) - 3} more)" if len(ingest.skipped) > 3 else ""
+        raise IngestError(
+            f"no essay could be read from {folder}"
+            + (f" — {len(ingest.skipped)} file(s) skipped: {reasons}{more}" if ingest.skipped else " (no essay files found)")
+            + f"; nothing was stored and any earlier run of {class_name} / {term} is kept"
+        )
     rules = load_rules([Path(d) for d in rules_dirs])
     reference = ref_mod.load_many(references, workspace)
     nlp, info = load_model(model)

@@ -25,7 +25,9 @@ import io
 import json
 import logging
 import os
+import re
 import shutil
+import tempfile
 from collections import Counter
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass, field
@@ -104,29 +106,91 @@ def _read_tsv_gz(path: Path, expected_sha: str | None) -> list[list[str]]:
     return rows[1:]
 
 
+def _is_reference_dir(path: Path) -> bool:
+    """True for a folder hingeword wrote: a manifest with a ``files`` entry and nothing but its files."""
+    try:
+        manifest = json.loads((path / "manifest.json").read_text(encoding="utf-8"))
+        names = {p.name for p in path.iterdir()}
+    except (OSError, UnicodeDecodeError, ValueError):
+        return False
+    if not isinstance(manifest, dict) or not isinstance(manifest.get("files"), dict):
+        return False
+    return names <= {"manifest.json", *_DATA_FILES, "state.json"}
+
+
+_NAME_OK = re.compile(r"[A-Za-z0-9][A-Za-z0-9._+-]{0,63}")
+
+
+def check_name(name: str) -> None:
+    """A reference name is a plain folder name: letters, digits, ``. _ + -``, no path parts."""
+    if not _NAME_OK.fullmatch(name or "") or ".." in name:
+        raise ReferenceDataError(
+            f"reference name '{name}' is not allowed: use letters, digits and . _ + - "
+            "(at most 64 characters, no '/', '\\' or '..')"
+        )
+
+
+def check_target(out: Path) -> None:
+    """Refuse to write a reference over anything hingeword did not build.
+
+    An existing target must be an empty folder or a reference folder (its manifest
+    and data files only); anything else — a workspace, an essay folder, a home
+    directory — is left untouched and the build stops with a one-line error.
+    """
+    if out.is_symlink():
+        raise ReferenceDataError(f"reference output {out} is a symbolic link; choose a new folder")
+    if out.exists() and not out.is_dir():
+        raise ReferenceDataError(f"reference output {out} exists and is not a folder; choose a new folder")
+    if out.is_dir() and any(out.iterdir()) and not _is_reference_dir(out):
+        raise ReferenceDataError(
+            f"reference output {out} exists and is not a reference built by hingeword; "
+            "it is left untouched: choose a new or empty folder"
+        )
+
+
 def save(ref: Reference, out_dir: str | Path) -> Path:
-    """Write ``ref`` to ``out_dir`` (replaced atomically)."""
+    """Write ``ref`` to ``out_dir``: into a fresh temporary folder beside it, then renamed into place.
+
+    An existing ``out_dir`` is replaced only when it is empty or a reference folder
+    (:func:`check_target`); nothing else is ever deleted.
+    """
     out = Path(out_dir)
-    tmp = out.with_name(out.name + ".writing")
-    if tmp.exists():
-        shutil.rmtree(tmp)
-    tmp.mkdir(parents=True)
-    pat_rows = sorted(((g, p, prep, n) for (g, p, prep), n in ref.patterns.items()), key=lambda r: (r[0], r[1], r[2]))
-    lem_rows = sorted(((lem, p, n) for (lem, p), n in ref.lemmas.items()), key=lambda r: (r[0], r[1]))
-    files = {
-        "patterns.tsv.gz": _write_tsv_gz(tmp / "patterns.tsv.gz", ("governor", "governor_pos", "preposition", "count"), pat_rows),
-        "lemmas.tsv.gz": _write_tsv_gz(tmp / "lemmas.tsv.gz", ("lemma", "pos", "tokens"), lem_rows),
-    }
-    manifest = dict(ref.manifest)
-    manifest["format_version"] = FORMAT_VERSION
-    manifest["attachments"] = sum(ref.patterns.values())
-    manifest["patterns"] = len(ref.patterns)
-    manifest["files"] = files
-    (tmp / "manifest.json").write_text(json.dumps(manifest, indent=2, sort_keys=True, ensure_ascii=False) + "\n", encoding="utf-8")
-    if out.exists():
-        shutil.rmtree(out)
-    os.replace(tmp, out)
+    check_target(out)
+    out.parent.mkdir(parents=True, exist_ok=True)
+    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.writing-", dir=out.parent))
+    try:
+        pat_rows = sorted(((g, p, prep, n) for (g, p, prep), n in ref.patterns.items()), key=lambda r: (r[0], r[1], r[2]))
+        lem_rows = sorted(((lem, p, n) for (lem, p), n in ref.lemmas.items()), key=lambda r: (r[0], r[1]))
+        files = {
+            "patterns.tsv.gz": _write_tsv_gz(tmp / "patterns.tsv.gz", ("governor", "governor_pos", "preposition", "count"), pat_rows),
+            "lemmas.tsv.gz": _write_tsv_gz(tmp / "lemmas.tsv.gz", ("lemma", "pos", "tokens"), lem_rows),
+        }
+        manifest = dict(ref.manifest)
+        manifest["format_version"] = FORMAT_VERSION
+        manifest["attachments"] = sum(ref.patterns.values())
+        manifest["patterns"] = len(ref.patterns)
+        manifest["files"] = files
+        (tmp / "manifest.json").write_text(json.dumps(manifest, indent=2, sort_keys=True, ensure_ascii=False) + "\n", encoding="utf-8")
+        os.chmod(tmp, 0o755)
+        old = None
+        if out.exists():
+            old = Path(tempfile.mkdtemp(prefix=f".{out.name}.old-", dir=out.parent))
+            os.replace(out, old / "ref")
+        os.replace(tmp, out)
+    except BaseException:
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise
+    if old is not None:
+        _remove_reference_dir(old / "ref")
+        old.rmdir()
     return out
+
+
+def _remove_reference_dir(path: Path) -> None:
+    """Delete a folder this module wrote, file by file (never a tree it did not write)."""
+    for name in ("manifest.json", *_DATA_FILES, "state.json"):
+        (path / name).unlink(missing_ok=True)
+    path.rmdir()
 
 
 def read_manifest(path: str | Path) -> dict:
@@ -314,7 +378,12 @@ def build(
         raise ReferenceDataError(f"reference source folder not found: {source}")
     if fmt not in ("text", "conllu"):
         raise ReferenceDataError(f"unknown format '{fmt}' (use text or conllu)")
+    check_name(name)
     out = Path(out_dir)
+    src_real, out_real = source.resolve(), out.resolve()
+    if out_real == src_real or out_real in src_real.parents:
+        raise ReferenceDataError(f"reference output {out} would replace its own source folder {source}; choose another folder")
+    check_target(out)
     files = _text_files(source, (".txt",) if fmt == "text" else (".conllu", ".conll"))
     if not files:
         raise ReferenceDataError(f"no {'.txt' if fmt == 'text' else '.conllu'} files under {source}")
@@ -327,6 +396,7 @@ def build(
         nlp = None
         model_desc = {"model": "gold (CoNLL-U)", "model_version": "-"}
     partial = out.with_name(out.name + ".partial")
+    check_target(partial)
     state_path = partial / "state.json"
     key = {"source": str(source.resolve()), "format": fmt, **model_desc, "extractor_version": EXTRACTOR_VERSION}
     patterns: Counter = Counter()
@@ -394,6 +464,6 @@ def build(
         "build_date": build_date or _dt.date.today().isoformat(),
     }
     path = save(Reference(manifest=manifest, patterns=patterns, lemmas=lemmas), out)
-    if partial.exists():
-        shutil.rmtree(partial)
+    if _is_reference_dir(partial):
+        _remove_reference_dir(partial)
     return path
