@@ -38,6 +38,12 @@ TERM_START = "2026-01-10"
 #: fewer than the default ``min_reference`` of 20.
 TINY_SETTINGS = {"min_reference": 5, "min_g2": 3.84}
 
+
+def tiny_thresholds():
+    from hingeword.score import Thresholds
+
+    return Thresholds(**TINY_SETTINGS)
+
 #: Invented learner essays (four writers). "discuss about" is written by all
 #: four, "dicuss" is a misspelling of "discuss", "intrested" of "interested".
 ESSAYS = {
@@ -110,7 +116,7 @@ def scanned(tmp_path_factory, tiny_essays, tiny_ref_path):
 
     workspace = tmp_path_factory.mktemp("ws")
     result = scan(tiny_essays(), class_name="evening-b1", term="2026-spring", workspace=workspace,
-                  references=[str(tiny_ref_path)], settings=TINY_SETTINGS, term_start=TERM_START, processes=1)
+                  references=[str(tiny_ref_path)], thresholds=tiny_thresholds(), term_start=TERM_START, processes=1)
     return workspace, result
 
 
@@ -153,21 +159,22 @@ def store_hand_run(workspace: Path, *, class_name: str = "morning-a2", term: str
     from hingeword.history import Workspace
     from hingeword.patterns import count_patterns
     from hingeword.reference import Reference
-    from hingeword.score import score_run
+    from hingeword.score import Thresholds, score_patterns
 
     essays = [essay(eid, w, t) for eid, (w, t) in HAND_TEXTS.items()]
     atts = [attachment(e, "discuss", "discussed", "about") for e in essays]
     ref = Reference(manifest={"name": "hand"},
                     patterns=Counter({("discuss", "VERB", "-"): 40, ("discuss", "VERB", "with"): 5,
                                       ("talk", "VERB", "about"): 30}))
-    scored, used = score_run(count_patterns(atts), atts, ref, {"min_reference": 5})
+    used = Thresholds(min_reference=5)
+    records = score_patterns(count_patterns(atts), atts, ref, used)
     with Workspace(workspace) as ws:
         return ws.replace_run(
             class_name=class_name, term=term,
             run_meta={"tool_version": "test", "model": "none", "model_version": "-", "extractor_version": "1",
                       "source": "hand", "words": sum(e.word_count for e in essays),
-                      "settings": {**used, "term_start": term_start}, "reference": ref.manifest},
-            essays=essays, skipped=[], notes=[], attachments=atts, pattern_figures=scored.to_dict("records"),
+                      "settings": {**used.as_dict(), "term_start": term_start}, "reference": ref.manifest},
+            essays=essays, skipped=[], notes=[], attachments=atts, records=records,
         )
 
 
@@ -178,3 +185,25 @@ def hand_run(tmp_path) -> Path:
     workspace = tmp_path / "ws"
     store_hand_run(workspace)
     return workspace
+
+
+def db_counts(workspace: Path) -> dict[str, int]:
+    """Rows per table of a workspace database (read directly: a probe for tests only)."""
+    import sqlite3
+
+    conn = sqlite3.connect(Path(workspace) / "hingeword.sqlite")
+    try:
+        tables = [r[0] for r in conn.execute("SELECT name FROM sqlite_master WHERE type='table' ORDER BY name")]
+        return {t: conn.execute(f"SELECT COUNT(*) FROM {t}").fetchone()[0] for t in tables}
+    finally:
+        conn.close()
+
+
+def db_integrity(workspace: Path) -> str:
+    import sqlite3
+
+    conn = sqlite3.connect(Path(workspace) / "hingeword.sqlite")
+    try:
+        return conn.execute("PRAGMA integrity_check").fetchone()[0]
+    finally:
+        conn.close()

@@ -11,7 +11,8 @@ from collections import Counter
 import pytest
 
 from hingeword import reference as ref_mod
-from hingeword.causes import Categoriser, categorise_figures
+from hingeword.causes import Categoriser, categorise
+from hingeword.record import PatternRecord, Status
 from hingeword.reference import Reference
 from hingeword.rules import load_rules
 
@@ -45,9 +46,9 @@ def test_causes_suggestion_depend_of_is_on(cat):
 
 
 def test_causes_suggestion_discuss_is_direct_object(cat):
-    desc = cat.describe("discuss", "VERB", "about", cat.categorise("discuss", "VERB", "about"))
-    assert desc["suggestion"] == "discuss + direct object"
-    assert "no 'about'" in desc["explanation"] and "discussion about" in desc["explanation"]
+    advice = cat.advise("discuss", "VERB", "about", cat.categorise("discuss", "VERB", "about"))
+    assert advice.suggestion == "discuss + direct object"
+    assert "no 'about'" in advice.explanation and "discussion about" in advice.explanation
 
 
 def test_causes_l1_transfer_when_first_language_known(cat):
@@ -64,10 +65,12 @@ def test_causes_unclear_without_evidence():
     assert [c.code for c in ranked] == ["unclear"]
 
 
-def test_causes_figures_gain_export_fields(cat):
-    figs = [{"governor": "discuss", "governor_pos": "VERB", "preposition": "about", "flagged": True, "status": "over-used"},
-            {"governor": "talk", "governor_pos": "VERB", "preposition": "about", "flagged": False, "status": "as native"}]
-    out = categorise_figures(figs, cat.ref, cat.rules, {})
-    assert out[0]["cause"] == "noun-pattern" and out[0]["suggestion"] == "discuss + direct object"
-    assert out[0]["causes"] and all({"code", "confidence", "evidence", "label"} <= set(c) for c in out[0]["causes"])
-    assert out[1]["cause"] == "" and out[1]["suggestion"] == ""
+def test_causes_records_gain_advice_and_export_fields(cat):
+    recs = [PatternRecord("discuss", "VERB", "about", flagged=True, status=Status.OVER_USED),
+            PatternRecord("talk", "VERB", "about", status=Status.AS_NATIVE)]
+    out = categorise(recs, cat.ref, cat.rules, {})
+    assert out[0].advice.cause.code == "noun-pattern" and out[0].advice.suggestion == "discuss + direct object"
+    row = out[0].to_row()
+    assert row["cause"] == "noun-pattern" and row["suggestion"] == "discuss + direct object"
+    assert row["causes"] and all({"code", "confidence", "evidence", "label"} <= set(c) for c in row["causes"])
+    assert out[1].advice is None and out[1].to_row()["cause"] == "" and out[1].to_row()["suggestion"] == ""

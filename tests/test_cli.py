@@ -116,9 +116,9 @@ def test_cli_scan_prints_summary(in_tmp, tiny_ref_path):
     assert "  skipped notes.pdf: unsupported file type '.pdf' (use .txt, .docx, .odt or .csv)\n" in out
     assert "  spelling: 'dicuss' (VERB) counted as 'discuss'\n" in out
     assert "Over-used (candidates for your judgement, not verdicts):" in out
-    assert "discuss + about" in out
+    assert "discuss about" in out
     with Workspace(in_tmp / "ws", create=False) as ws:
-        assert [r["class"] for r in ws.runs()] == ["evening-b1"]
+        assert [r.class_name for r in ws.runs()] == ["evening-b1"]
 
 
 # ------------------------------------------------------------------ export
@@ -146,9 +146,9 @@ def test_cli_export_writes_csv(hand_run, in_tmp):
     assert result.exit_code == 0, result.output
     assert result.stderr == "wrote 2 patterns to out/patterns.csv\n"
     rows = list(csv.DictReader((in_tmp / "out" / "patterns.csv").read_text(encoding="utf-8").splitlines()))
-    # rows as stored: by governor, POS, preposition
+    # rows in rank order: flagged first
     assert [(r["governor"], r["preposition"], r["flagged"], r["status"]) for r in rows] == [
-        ("discuss", "-", "false", "under-used"), ("discuss", "about", "true", "over-used")]
+        ("discuss", "about", "true", "over-used"), ("discuss", "-", "false", "under-used")]
 
 
 # ------------------------------------------------------------------ concordance
@@ -159,11 +159,11 @@ def test_cli_concordance_lines_have_writer_ids(hand_run, in_tmp):
                      "--width", "12", "--names", "real")
     assert result.exit_code == 0, result.output
     lines = result.stdout.splitlines()
-    # writer padded to 14, left context right-aligned to --width, key in brackets
+    # writer padded to the longest (never cut), left context right-aligned to --width, key in brackets
     assert lines == [
-        f"{'lena':<14} {'I':>12} [discussed about] the rules wi",
-        f"{'marek':<14} {'They':>12} [discussed about] money.",
-        f"{'zofia':<14} {'We':>12} [discussed about] the trip.",
+        f"{'lena':<5} {'I':>12} [discussed about] the rules wi",
+        f"{'marek':<5} {'They':>12} [discussed about] money.",
+        f"{'zofia':<5} {'We':>12} [discussed about] the trip.",
     ]
     assert result.stderr == "3 lines\n"
     # by default writers are pseudonymised with the class's stable codes
@@ -174,7 +174,31 @@ def test_cli_concordance_lines_have_writer_ids(hand_run, in_tmp):
 
 def test_cli_concordance_unknown_pattern(hand_run, in_tmp):
     result = _invoke("concordance", "talk", "of", "--class", "morning-a2", "--term", "t1", "-w", "ws")
-    _assert_one_error_line(result, "no 'talk + of' in morning-a2 / t1")
+    _assert_one_error_line(result, "no 'talk of' in morning-a2 / t1")
+
+
+def test_cli_one_pattern_spelling_accepted_everywhere(hand_run, in_tmp):
+    """The screens spell the direct-object slot "+ object"; every command takes that, "object" and "-"."""
+    for spelling in (["discuss", "object"], ["discuss", "+", "object"], ["discuss", "-"]):
+        result = _invoke("concordance", spelling[0], " ".join(spelling[1:]), "--class", "morning-a2", "--term", "t1",
+                         "-w", "ws")
+        assert result.exit_code == 1 and "no 'discuss + object' in morning-a2 / t1" in result.stderr
+    dismissed = _invoke("dismiss", "discuss", "object", "--class", "morning-a2", "--reason", "r", "-w", "ws")
+    assert dismissed.stdout == "dismissed 'discuss + object' for morning-a2: r\n"
+    restored = _invoke("restore", "discuss", "+ object", "--class", "morning-a2", "-w", "ws")
+    assert restored.stdout == "restored 'discuss + object' for morning-a2\n"
+
+
+def test_cli_dismiss_of_an_absent_pattern_warns(hand_run, in_tmp):
+    result = _invoke("dismiss", "think", "about", "--class", "morning-a2", "--reason", "fine", "-w", "ws")
+    assert result.exit_code == 0
+    assert "Warning: 'think about' does not occur in any stored run of morning-a2" in result.stderr
+    assert "Rebuild the reports" in result.stderr
+
+
+def test_cli_restore_checks_the_class(hand_run, in_tmp):
+    result = _invoke("restore", "discuss", "about", "--class", "nope", "-w", "ws")
+    _assert_one_error_line(result, "no scans of class 'nope' in ws (known: morning-a2)")
 
 
 @pytest.mark.slow
@@ -239,7 +263,7 @@ def test_cli_export_concordance_and_decisions(hand_run, in_tmp):
     assert result.exit_code == 0, result.output
     patterns = list(csv.DictReader(Path("p.csv").read_text(encoding="utf-8").splitlines()))
     about = next(r for r in patterns if (r["governor"], r["preposition"]) == ("discuss", "about"))
-    assert about["dismissed"] == "True" and about["dismissed_reason"] == "taught already"
+    assert about["dismissed"] == "true" and about["dismissed_reason"] == "taught already"
     lines = list(csv.DictReader(Path("k.csv").read_text(encoding="utf-8").splitlines()))
     assert list(lines[0])[:5] == ["writer", "essay_id", "governor", "governor_pos", "preposition"]
     keys = [line["key"] for line in lines if line["preposition"] == "about"]

@@ -63,8 +63,7 @@ def test_demo_recall_and_statuses(demo):
     with Workspace(ws_path, create=False) as ws:
         flagged = {}
         for run in ws.runs():
-            flagged[(run["class"], run["term"])] = {
-                (f["governor"], f["governor_pos"], f["preposition"]) for f in ws.figures(run["id"]) if f["flagged"]}
+            flagged[(run.class_name, run.term)] = {r.key for r in ws.records(run.id) if r.flagged}
         trends = {cls: compute_trends(ws, cls) for cls in ("evening-b2", "academic-c1")}
     planted = [r for r in rows if r["planted"] == "flagged"]
     found = [r for r in planted if (r["governor"], r["pos"], r["preposition"]) in flagged[(r["class"], r["term"])]]
@@ -75,9 +74,9 @@ def test_demo_recall_and_statuses(demo):
     missed_keys = {(m["class"], m["governor"], m["pos"], m["preposition"]) for m in misses}
     with Workspace(ws_path, create=False) as ws:
         for m_ in misses:
-            figs = {(f["governor"], f["governor_pos"], f["preposition"]): f
-                    for f in ws.figures(ws.run(m_["class"], m_["term"])["id"])}
-            got = figs.get((m_["governor"], m_["pos"], m_["preposition"]), {}).get("status")
+            figs = {r.key: r for r in ws.records(ws.run(m_["class"], m_["term"]).id)}
+            rec = figs.get((m_["governor"], m_["pos"], m_["preposition"]))
+            got = str(rec.status) if rec else None
             assert got == m_["status"], f"known miss {m_} now has status {got}: update EXPECTED.md"
     print("known misses (explained in EXPECTED.md):", [f"{m_['class']}/{m_['term']} {m_['governor']} + {m_['preposition']}" for m_ in misses])
     wrong = []

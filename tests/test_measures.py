@@ -5,11 +5,11 @@ Where a value comes from:
 * ``[lib]`` computed with nltk 3.10.4 / scipy 1.17.1 (``BigramAssocMeasures``,
   ``scipy.stats``); most are also recomputed live against those libraries here.
 * ``[pub*]`` a published value as quoted, with its section, by secondary sources
-  (NLTK's ``collocations.doctest``); the original was not read (METHODS.md section 5).
+  (NLTK's ``collocations.doctest``); the original was not read (docs/methods.md section 5).
 * ``[mem]`` from memory, not verified.
 
 The tables T1-T3 and the "discuss about" / "depend on" counts are invented
-illustrative counts from the design notes' METHODS.md, not taken from any corpus.
+illustrative counts from the design notes' docs/methods.md, not taken from any corpus.
 """
 
 from fractions import Fraction
@@ -25,7 +25,7 @@ from hingeword import measures as m
 
 pytestmark = pytest.mark.filterwarnings("error")
 
-# (O11, O12, O21, O22), METHODS section 5(c).
+# (O11, O12, O21, O22), docs/methods.md §5(c).
 TABLES = {
     "T1": (45, 5, 1155, 28795),  # "depend on", learner
     "T2": (12, 8, 388, 29592),  # "discuss about", learner
@@ -83,7 +83,7 @@ def test_measures_cells_and_expected_match_nltk(table):
     assert m.expected(*marg) == pytest.approx(e11, rel=1e-12)
 
 
-# METHODS section 5(c) [lib] (O/E, z, logDice and ln Poisson-Stirling worked by hand there).
+# docs/methods.md §5(c) [lib] (O/E, z, logDice and ln Poisson-Stirling worked by hand there).
 PINNED = {
     "expected": (2.0, 0.266667, 0.923077),
     "observed_expected": (22.5, 45, 13),
@@ -147,7 +147,7 @@ def test_measures_fisher_greater_matches_scipy(table):
 
 
 def test_measures_methods_test_values():
-    # METHODS section 5(c) [lib]: scipy G p and Fisher p (two-sided = greater there).
+    # docs/methods.md §5(c) [lib]: scipy G p and Fisher p (two-sided = greater there).
     assert m.g2_p_value([259.225234, 77.266497, 70.335564]) == pytest.approx(
         [2.5316e-58, 1.4938e-18, 5.0028e-17], rel=1e-4
     )
@@ -165,7 +165,7 @@ def test_measures_g2_p_value_at_critical_values():
     assert got == pytest.approx([0.05, 0.01, 0.001, 0.0001], rel=1e-3)
 
 
-# --- Published worked examples (METHODS section 5(a)/(b)) ------------------------------
+# --- Published worked examples (docs/methods.md §5(a)/(b)) ------------------------------
 
 
 def test_measures_t_score_new_companies():
@@ -220,7 +220,7 @@ def test_measures_log_ratio_replaces_zero_by_half():
 
 
 def test_measures_g2_two_corpus_is_four_cell():
-    # METHODS section 3 [lib]: four-cell G2 70.3356; the two-term log-likelihood of
+    # docs/methods.md §3 [lib]: four-cell G2 70.3356; the two-term log-likelihood of
     # Rayson & Garside 2000 would give 61.5588 for the same table.
     assert m.g2_two_corpus(12, 20, 0, 240) == pytest.approx(70.335564, abs=1e-6)
     assert m.g2_two_corpus(5, 100, 50, 1000) == pytest.approx(0.0, abs=1e-12)
@@ -239,7 +239,7 @@ def test_measures_two_corpus_rejects_count_above_base():
         m.fisher_greater(1, 20, 300, 240)
 
 
-# --- Collocation ratio (METHODS section 2) ------------------------------------------
+# --- Collocation ratio (docs/methods.md §2) ------------------------------------------
 
 DISCUSS_L = (12, 20, 400, 30000)  # E 0.2667, O/E 45
 DISCUSS_R = (0, 240, 3000, 200000)  # unseen, E 3.6 as in METHODS (margins ours)
@@ -248,7 +248,7 @@ DEPEND_R = (280, 300, 9000, 200000)
 
 
 def test_measures_collocation_ratio_methods_examples():
-    # METHODS section 2 [lib]: MI_R with O_R 0 -> 0.5, E_R 3.6 is -2.8480.
+    # docs/methods.md §2 [lib]: MI_R with O_R 0 -> 0.5, E_R 3.6 is -2.8480.
     assert m.mutual_information(*DISCUSS_R) == pytest.approx(-2.8480, abs=1e-4)
     assert m.log2_collocation_ratio(DISCUSS_L, DISCUSS_R) == pytest.approx(8.3399, abs=1e-4)
     assert m.collocation_ratio(DISCUSS_L, DISCUSS_R) == pytest.approx(324)
@@ -284,7 +284,7 @@ def test_measures_collocation_ratio_refuses_n_dependent_scores():
         m.collocation_ratio_ci(DEPEND_L, DEPEND_R, level=95)
 
 
-# --- Dispersion (METHODS section 4) --------------------------------------------------
+# --- Dispersion (docs/methods.md §4) --------------------------------------------------
 
 
 @pytest.mark.parametrize(
@@ -362,7 +362,7 @@ def test_measures_inconsistent_table_raises():
         m.log_likelihood(0, 60, 60, 100)  # O22 = -20
 
 
-# --- Properties (METHODS section 6) ---------------------------------------------------
+# --- Properties (docs/methods.md §6) ---------------------------------------------------
 
 small = st.integers(0, 1000)
 tables = st.tuples(small, small, small, st.integers(0, 10**6))

@@ -29,10 +29,12 @@ from pathlib import Path
 
 import pytest
 
+from conftest import db_counts, db_integrity
 from hingeword import history
 from hingeword.errors import WorkspaceError
 from hingeword.extract import Attachment
 from hingeword.history import DB_NAME, MIGRATIONS, Workspace, schema_version
+from hingeword.score import Thresholds
 
 V1_TABLES = ["attachments", "essays", "notes", "pattern_stats", "runs", "skipped"]
 
@@ -130,8 +132,8 @@ def test_migrations_upgrade_from_v1_keeps_every_row(tmp_path, caplog):
     with caplog.at_level(logging.DEBUG, logger="hingeword"):
         with Workspace(root) as ws:
             assert ws.version() == schema_version() == len(MIGRATIONS)
-            after = ws.count_rows()
-            assert ws.integrity() == "ok"
+            after = db_counts(ws.root)
+            assert db_integrity(ws.root) == "ok"
     assert {t: after[t] for t in V1_TABLES} == before
     assert {t: after[t] for t in ("class_links", "decisions", "decision_log")} == {
         "class_links": 0, "decisions": 0, "decision_log": 0}
@@ -143,23 +145,26 @@ def test_migrations_upgrade_from_v1_keeps_every_row(tmp_path, caplog):
 def test_migrations_upgrade_backfills_term_start_and_old_rows_read_back(tmp_path):
     root = make_v1(tmp_path / "ws")
     with Workspace(root) as ws:
-        runs = {r["term"]: r for r in ws.runs("evening-b2")}
-        assert runs["autumn"]["term_start"] == "2025-09-15"  # from the run's settings
-        assert runs["winter"]["term_start"] == "2026-01-20"  # from its creation date
-        assert [r["term"] for r in ws.runs_in_order("evening-b2")] == ["autumn", "winter"]
+        runs = {r.term: r for r in ws.runs("evening-b2")}
+        assert runs["autumn"].term_start == "2025-09-15"  # from the run's settings
+        assert runs["winter"].term_start == "2026-01-20"  # from its creation date
+        assert [r.term for r in ws.runs_in_order("evening-b2")] == ["autumn", "winter"]
         assert ws.attachments(1)[0] == Attachment(**ATT_V1)
-        assert [e["text"] for e in ws.essays(1)] == ["Yesterday we discussed about the café menu.",
+        assert [e.text for e in ws.essays(1)] == ["Yesterday we discussed about the café menu.",
                                                     "It depends of the bus timetable."]
-        assert [s["reason"] for s in ws.skipped(1)] == ["not an essay file (.pdf)"]
+        assert [s.reason for s in ws.skipped(1)] == ["not an essay file (.pdf)"]
         # the upgraded history works with the features schema 2 added
         ws.dismiss("depend", "of", class_name="evening-b2", reason="checked by hand", on="2026-02-01")
-        figs = {f["governor"]: f for f in ws.figures_in_context("evening-b2", "winter")}
-        assert figs["discuss"]["since_last_term"] == "new this term"
+        from hingeword.record import Since
+        from hingeword.view import load_run_view
+
+        recs = {r.governor: r for r in load_run_view(ws, "evening-b2", "winter").records}
+        assert recs["discuss"].comparison.since is Since.NEW
         from hingeword.trends import compute_trends
 
         tr = compute_trends(ws, "evening-b2")
         assert [(p.label, p.status, p.dismissed) for p in tr.patterns] == [
-            ("depend + of", "gone", True), ("discuss + about", "gone", False)]
+            ("depend of", "gone", True), ("discuss about", "gone", False)]
 
 
 def test_migrations_upgrade_writes_backup_with_old_rows(tmp_path):
@@ -183,12 +188,12 @@ def test_migrations_upgrade_is_idempotent(tmp_path, caplog):
     backup = root / f"{DB_NAME}.v1.bak"
     stamp = (sha(backup), backup.stat().st_mtime_ns)
     with Workspace(root) as ws:
-        counts = ws.count_rows()
+        counts = db_counts(ws.root)
     caplog.clear()
     with caplog.at_level(logging.DEBUG, logger="hingeword"):
         with Workspace(root) as ws:  # opening again applies nothing and backs up nothing
             assert ws.version() == len(MIGRATIONS)
-            assert ws.count_rows() == counts
+            assert db_counts(ws.root) == counts
     assert not [r for r in caplog.records if "migration" in r.getMessage() or "backup" in r.getMessage()]
     assert (sha(backup), backup.stat().st_mtime_ns) == stamp
     assert columns(root / DB_NAME, "runs").count("term_start") == 1
@@ -197,7 +202,7 @@ def test_migrations_upgrade_is_idempotent(tmp_path, caplog):
 def test_migrations_new_workspace_gets_latest_schema_without_backup(tmp_path):
     with Workspace(tmp_path / "ws") as ws:
         assert ws.version() == len(MIGRATIONS)
-        assert set(ws.count_rows()) == set(V1_TABLES) | {"class_links", "decisions", "decision_log"}
+        assert set(db_counts(ws.root)) == set(V1_TABLES) | {"class_links", "decisions", "decision_log"}
     assert not list((tmp_path / "ws").glob("*.bak"))
 
 
@@ -224,7 +229,7 @@ def test_migrations_failed_migration_rolls_back_all_steps(tmp_path, monkeypatch)
     assert raw_counts(root / DB_NAME) == before
     assert "term_start" not in columns(root / DB_NAME, "runs")
     with Workspace(root) as ws:  # and the real upgrade still works afterwards
-        assert ws.version() == 2 and ws.integrity() == "ok"
+        assert ws.version() == 2 and db_integrity(ws.root) == "ok"
 
 
 # ------------------------------------------------------------ newer schemas
@@ -305,6 +310,7 @@ flag = Path(args["flag"])
 
 import hingeword.pipeline as pipeline
 from hingeword.history import Workspace
+from hingeword.score import Thresholds
 
 
 def hold(what):
@@ -329,16 +335,16 @@ elif args["mode"] == "before_write":
 
     Workspace.replace_run = slow_replace
 elif args["mode"] == "in_transaction":
-    real_insert = Workspace._insert_figures
+    real_insert = Workspace._insert_records
 
-    def slow_insert(self, run_id, figures):
-        real_insert(self, run_id, figures)  # old run deleted, new rows written, not committed
+    def slow_insert(self, run_id, records):
+        real_insert(self, run_id, records)  # old run deleted, new rows written, not committed
         hold("in_transaction")
 
-    Workspace._insert_figures = slow_insert
+    Workspace._insert_records = slow_insert
 
 pipeline.scan(args["folder"], class_name=args["class"], term=args["term"], workspace=args["workspace"],
-              references=[args["reference"]], settings={"min_reference": 2, "min_g2": 3.84},
+              references=[args["reference"]], thresholds=Thresholds(min_reference=2, min_g2=3.84),
               term_start="2026-04-13", processes=1)
 flag.write_text("finished")
 """
@@ -362,7 +368,7 @@ def first_scan(tmp_path_factory):
                                build_date="2026-01-05")
     ws = base / "ws"
     result = scan(write_folder(base / "first", FIRST), class_name=CLASS, term=TERM, workspace=ws,
-                  references=[str(tiny_ref)], settings={"min_reference": 2, "min_g2": 3.84},
+                  references=[str(tiny_ref)], thresholds=Thresholds(min_reference=2, min_g2=3.84),
                   term_start="2026-04-13", processes=1)
     second = write_folder(base / "second", {**FIRST, **MORE})
     return {"ref": tiny_ref, "ws": ws, "result": result, "second": second}
@@ -371,9 +377,10 @@ def first_scan(tmp_path_factory):
 def snapshot(root: Path) -> dict:
     with Workspace(root, create=False) as ws:
         run = ws.run(CLASS, TERM)
-        return {"run": dict(run), "essays": [dict(e) for e in ws.essays(run["id"])],
-                "attachments": ws.attachments(run["id"]), "figures": ws.figures(run["id"]),
-                "counts": ws.count_rows(), "integrity": ws.integrity()}
+        return {"run": run, "essays": ws.essays(run.id),
+                "attachments": ws.attachments(run.id),
+                "figures": [json.dumps(r.to_row(), sort_keys=True) for r in ws.records(run.id)],
+                "counts": db_counts(ws.root), "integrity": db_integrity(ws.root)}
 
 
 def db_is_write_locked(db: Path) -> bool:
@@ -429,7 +436,7 @@ def test_migrations_scan_killed_half_way_leaves_previous_run_intact(first_scan, 
     from hingeword.pipeline import scan
 
     again = scan(first_scan["second"], class_name=CLASS, term=TERM, workspace=ws,
-                 references=[str(first_scan["ref"])], settings={"min_reference": 2, "min_g2": 3.84},
+                 references=[str(first_scan["ref"])], thresholds=Thresholds(min_reference=2, min_g2=3.84),
                  term_start="2026-04-13", processes=1)
     assert again.parse_stats.from_cache >= 3
     after = snapshot(ws)

@@ -23,12 +23,12 @@ def _unusable_folder(tmp_path):
 
 def test_pipeline_rescan_of_unusable_folder_keeps_the_stored_run(hand_run, tmp_path):
     with Workspace(hand_run) as ws:
-        before = ws.run("morning-a2", "t1")["id"], len(ws.essays(ws.run("morning-a2", "t1")["id"]))
+        before = ws.run("morning-a2", "t1").id, len(ws.essays(ws.run("morning-a2", "t1").id))
     with pytest.raises(IngestError, match="no essay could be read.*earlier run of morning-a2 / t1 is kept"):
         scan(_unusable_folder(tmp_path), class_name="morning-a2", term="t1", workspace=hand_run)
     with Workspace(hand_run) as ws:
         run = ws.run("morning-a2", "t1")
-        assert (run["id"], len(ws.essays(run["id"]))) == before == (before[0], 3)
+        assert (run.id, len(ws.essays(run.id))) == before == (before[0], 3)
 
 
 def test_cli_first_scan_of_empty_folder_fails(tmp_path):
@@ -52,4 +52,4 @@ def test_history_refuses_a_run_without_essays(hand_run):
         ws.replace_run(class_name="morning-a2", term="t1", run_meta={}, essays=[], skipped=[], notes=[],
                        attachments=[])
     with Workspace(hand_run) as ws:
-        assert len(ws.essays(ws.run("morning-a2", "t1")["id"])) == 3
+        assert len(ws.essays(ws.run("morning-a2", "t1").id)) == 3

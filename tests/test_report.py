@@ -26,6 +26,7 @@ from hingeword.errors import HingewordError
 from hingeword.extract import Attachment
 from hingeword.history import Workspace
 from hingeword.ingest import Essay, Skipped
+from hingeword.record import PatternRecord
 from hingeword.report import (
     SentenceView,
     answer_key,
@@ -35,7 +36,7 @@ from hingeword.report import (
     build_handout_context,
     build_overview_context,
     build_students_context,
-    load_run,
+    load_run_view,
     segments,
     sentence_view,
     slugify,
@@ -111,9 +112,9 @@ def make_attachment(e: Essay, governor: str, pos: str, gov_word: str, prep: str,
                       prep_start=p, prep_end=p + len(prep_word))
 
 
-def fig(governor, pos, prep, count, writers, gov_count, ref_count, ref_gov, g2, lr, cr, status, **extra) -> dict:
-    """An invented figure row with the score stage's keys."""
-    return {
+def fig(governor, pos, prep, count, writers, gov_count, ref_count, ref_gov, g2, lr, cr, status, **extra) -> PatternRecord:
+    """An invented pattern record (built from its flat row, as storage reads it back)."""
+    return PatternRecord.from_row({
         "governor": governor, "governor_pos": pos, "preposition": prep, "learner_count": count,
         "learner_writers": writers, "learner_governor_count": gov_count, "reference_count": ref_count,
         "reference_governor_count": ref_gov, "collocation_ratio": cr, "log_likelihood": g2, "log_ratio": lr,
@@ -122,7 +123,7 @@ def fig(governor, pos, prep, count, writers, gov_count, ref_count, ref_gov, g2, 
         "reference_share": ref_count / ref_gov if ref_gov else 0.0,
         "p_value": 0.001, "fisher_p": 0.002, "fdr_q": 0.004, "dispersion_dp": 0.3,
         "collocation_ratio_low": cr / 3, "collocation_ratio_high": cr * 3, "mi_learner": 4.2, **extra,
-    }
+    })
 
 
 FIGURES = [
@@ -149,7 +150,8 @@ FIGURES = [
         native_pattern="discuss something",
         explanation="We discuss something: no 'about'. But: a discussion about something."),
     fig("enter", "VERB", "into", 2, 2, 2, 9, 180, 11.0, 4.2, 20.0, "over-used",
-        cause="directional", cause_label="read as movement into a place", suggestion="enter + direct object",
+        causes=[{"code": "directional", "confidence": 0.5, "label": "read as movement into a place",
+                 "evidence": "'enter' + object 150 of 180 uses in the reference"}], suggestion="enter + direct object",
         suggested_preposition="-", native_pattern="enter something", explanation="We enter a room."),
     fig("discuss", "VERB", "-", 0, 0, 5, 251, 320, 15.3, -6.0, 0.0, "under-used"),
 ]
@@ -172,7 +174,7 @@ def store(workspace: Path) -> Workspace:
                   "words": sum(e.word_count for e in essays), "settings": SETTINGS, "reference": REFERENCE},
         essays=essays, skipped=[Skipped("notes.pdf", "not an essay: .pdf files are not read")],
         notes=[("typo", "'emphasise' (VERB) grouped under 'emphasize'")],
-        attachments=atts, pattern_figures=FIGURES)
+        attachments=atts, records=FIGURES)
     # the teacher's decision, kept apart from the figures (hingeword dismiss)
     ws.dismiss("enter", "into", class_name=CLASS, reason="entering a building is the topic of unit 4", on="2025-12-15")
     return ws
@@ -187,7 +189,7 @@ def ws(tmp_path):
 
 @pytest.fixture
 def data(ws):
-    return load_run(ws, CLASS, TERM)
+    return load_run_view(ws, CLASS, TERM)
 
 
 @pytest.fixture
@@ -571,7 +573,7 @@ def test_report_empty_run_still_writes_every_page(tmp_path):
         w.replace_run(class_name="c", term="t", run_meta={
             "tool_version": __version__, "model": "m", "model_version": "1", "extractor_version": "1",
             "source": "x", "words": 4, "settings": {}, "reference": {}}, essays=[e], skipped=[], notes=[],
-            attachments=[], pattern_figures=[])
+            attachments=[], records=[])
         paths = write_reports(w, "c", "t", tmp_path / "out", today=TODAY)
     assert "No pattern stood out" in text_of(paths.handout)
     assert "Nothing is flagged in this run." in text_of(paths.overview)
@@ -586,7 +588,7 @@ def test_report_write_trends_page_with_inline_charts(ws, tmp_path):
         "created": "2025-09-20T09:00:00+00:00", "tool_version": __version__, "model": "m", "model_version": "1",
         "extractor_version": "1", "source": "x", "words": 40, "settings": {**SETTINGS, "term_start": "2025-09-01"},
         "reference": REFERENCE}, essays=essays, skipped=[], notes=[], attachments=atts,
-        pattern_figures=[fig("discuss", "VERB", "about", 2, 2, 2, 1, 320, 20.0, 8.0, 300.0, "over-used")])
+        records=[fig("discuss", "VERB", "about", 2, 2, 2, 1, 320, 20.0, 8.0, 300.0, "over-used")])
     path = write_trends(ws, CLASS, tmp_path / "out", today=TODAY)
     assert path == tmp_path / "out" / "evening-b2" / "trends.html"
     soup = soup_of(path)
@@ -595,8 +597,8 @@ def test_report_write_trends_page_with_inline_charts(ws, tmp_path):
     table = soup.find("table", class_="figures")
     assert [th.get_text() for th in table.thead.find_all("th")] == ["Pattern", "2025 Autumn", "2026 Spring", "Status now"]
     rows = {tr.th.get_text(" ", strip=True): tr.find_all("td")[-1].get_text() for tr in table.tbody.find_all("tr")}
-    assert rows["discuss + about"] == "recurring" and rows["depend + of"] == "new"
-    assert rows["enter + into (dismissed)"] == "new"
+    assert rows["discuss about"] == "recurring" and rows["depend of"] == "new"
+    assert rows["enter into (dismissed)"] == "new"
     # the overview of the later term now compares with the earlier one
     overview = text_of(write_reports(ws, CLASS, TERM, tmp_path / "out", today=TODAY).overview)
     assert re.search(r"1\. discuss about .* Trend: also flagged last term \(500\.0 → \d+\.\d per 10,000 words\)", overview)

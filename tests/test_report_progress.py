@@ -13,7 +13,8 @@ from bs4 import BeautifulSoup
 from hingeword.extract import Attachment
 from hingeword.history import Workspace
 from hingeword.ingest import Essay
-from hingeword.report import build_handout_context, build_students_context, load_run, write_reports
+from hingeword.record import PatternRecord, Status
+from hingeword.report import build_handout_context, build_students_context, load_run_view, write_reports
 
 SENTENCE = "We discussed about the rent."
 
@@ -29,12 +30,13 @@ def discuss_about(writer: str) -> Attachment:
                       sentence_start=0, gov_start=3, gov_end=12, prep_start=13, prep_end=18)
 
 
-def figure(count: int, writers: int, flagged: bool) -> dict:
-    return {"governor": "discuss", "governor_pos": "VERB", "preposition": "about", "learner_count": count,
-            "learner_writers": writers, "learner_governor_count": count + 2, "flagged": flagged,
-            "status": "over-used" if flagged else "too rare in class", "suggested_preposition": "-",
-            "native_pattern": "discuss something", "suggestion": "discuss + direct object",
-            "explanation": "We discuss something: no 'about'."}
+def figure(count: int, writers: int, flagged: bool) -> PatternRecord:
+    return PatternRecord.from_row({
+        "governor": "discuss", "governor_pos": "VERB", "preposition": "about", "learner_count": count,
+        "learner_writers": writers, "learner_governor_count": count + 2, "flagged": flagged,
+        "status": (Status.OVER_USED if flagged else Status.TOO_RARE).value, "suggested_preposition": "-",
+        "native_pattern": "discuss something", "suggestion": "discuss + direct object",
+        "explanation": "We discuss something: no 'about'."})
 
 
 def store(ws: Workspace, term: str, start: str, uses: dict[str, int], flagged: bool) -> None:
@@ -43,7 +45,7 @@ def store(ws: Workspace, term: str, start: str, uses: dict[str, int], flagged: b
     ws.replace_run(class_name="k", term=term, essays=essays, skipped=[], notes=[], attachments=atts,
                    run_meta={"tool_version": "t", "model": "m", "model_version": "1", "extractor_version": "2",
                              "source": "x", "words": 1000, "settings": {"term_start": start}},
-                   pattern_figures=[figure(sum(uses.values()), sum(1 for n in uses.values() if n), flagged)])
+                   records=[figure(sum(uses.values()), sum(1 for n in uses.values() if n), flagged)])
 
 
 @pytest.fixture
@@ -55,7 +57,7 @@ def ws(tmp_path):
 
 
 def test_report_progress_handout_since_line(ws):
-    data = load_run(ws, "k", "spring")
+    data = load_run_view(ws, "k", "spring")
     student = build_handout_context(data, today="2026-01-01")["patterns"][0]
     teacher = build_handout_context(data, today="2026-01-01", teacher=True)["patterns"][0]
     assert student["since"] == "We wrote this last term too."
@@ -63,7 +65,7 @@ def test_report_progress_handout_since_line(ws):
 
 
 def test_report_progress_student_sheets(ws):
-    data = load_run(ws, "k", "spring")
+    data = load_run_view(ws, "k", "spring")
     sheets = {s["label"]: s for s in build_students_context(data, names="real", today="2026-01-01")["students"]}
     assert sheets["ana"]["progress"] == [{"class_pattern": "discuss about something", "last_term": 2, "this_term": 0}]
     assert sheets["ben"]["progress"] == [{"class_pattern": "discuss about something", "last_term": 1, "this_term": 2}]

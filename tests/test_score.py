@@ -14,7 +14,8 @@ from hypothesis import strategies as st
 from hingeword.extract import Attachment
 from hingeword.patterns import count_patterns
 from hingeword.reference import Reference
-from hingeword.score import CONTRACT, DEFAULTS, score_patterns
+from hingeword.record import CONTRACT, Status
+from hingeword.score import DEFAULTS, Thresholds, score_patterns
 
 
 def att(writer: str, gov: str, prep: str, pos: str = "VERB") -> Attachment:
@@ -46,13 +47,13 @@ def planted_class() -> list[Attachment]:
 
 
 def scored(atts, ref=None, **settings):
-    return score_patterns(count_patterns(atts), atts, ref or reference(), settings)
+    return score_patterns(count_patterns(atts), atts, ref or reference(), Thresholds(**settings))
 
 
-def row(df, gov, prep):
-    sub = df[(df.governor == gov) & (df.preposition == prep)]
+def row(records, gov, prep):
+    sub = [r for r in records if (r.governor, r.preposition) == (gov, prep)]
     assert len(sub) == 1, f"{gov} + {prep} not in result"
-    return sub.iloc[0]
+    return sub[0]
 
 
 def test_score_planted_pattern_flagged_single_habit_not():
@@ -62,14 +63,14 @@ def test_score_planted_pattern_flagged_single_habit_not():
     assert discuss.learner_writers == 5 and discuss.reference_count == 0
     habit = row(df, "depend", "of")
     assert habit.learner_count == 6 and habit.learner_writers == 1
-    assert not habit.flagged and habit.status == "too rare in class"
+    assert not habit.flagged and habit.status is Status.CONCENTRATED
     assert row(df, "talk", "about").status == "as native"
 
 
-def test_score_columns_in_contract_order():
-    df = scored(planted_class())
-    assert list(df.columns[: len(CONTRACT)]) == CONTRACT
-    assert df.iloc[0].flagged  # flagged patterns come first
+def test_score_rows_in_contract_order():
+    records = scored(planted_class())
+    assert tuple(records[0].to_row())[: len(CONTRACT)] == CONTRACT
+    assert records[0].flagged  # flagged patterns come first
 
 
 def test_score_rare_governor_is_not_enough_reference_evidence():
@@ -110,7 +111,7 @@ def test_score_pattern_of_two_writers_in_a_large_class_not_flagged():
     df = scored(atts)
     discuss = row(df, "discuss", "about")
     assert discuss.learner_writers == 2 and discuss.dispersion_dp > 0.8
-    assert discuss.status == "too rare in class"
+    assert discuss.status is Status.CONCENTRATED
     assert row(scored(atts, max_dispersion=0.9), "discuss", "about").flagged
 
 
@@ -122,8 +123,17 @@ def test_score_thresholds_are_options():
 
 
 def test_score_defaults_documented():
-    assert DEFAULTS == {"min_count": 3, "min_writers": 2, "min_reference": 20, "min_g2": 10.83,
-                        "min_log_ratio": 1.0, "max_native_share": 0.05, "max_dispersion": 0.8, "measure": "oe"}
+    assert DEFAULTS.as_dict() == {"min_count": 3, "min_writers": 2, "min_reference": 20, "min_g2": 10.83,
+                                  "min_log_ratio": 1.0, "max_native_share": 0.05, "max_dispersion": 0.8,
+                                  "measure": "oe"}
+
+
+def test_score_unknown_threshold_is_an_error():
+    from hingeword.errors import HingewordError
+
+    with pytest.raises(HingewordError, match="unknown threshold 'min_cuont'"):
+        Thresholds.from_mapping({"min_cuont": 2})
+    assert Thresholds.from_mapping({"min_count": 2, "term_start": "x"}, ignore=("term_start",)).min_count == 2
 
 
 @settings(max_examples=60, deadline=None)
@@ -131,10 +141,9 @@ def test_score_defaults_documented():
 def test_score_flag_never_fires_below_minimum_counts(n, writers):
     names = [f"w{i}" for i in range(writers)]
     atts = [att(names[i % writers], "discuss", "about") for i in range(n)] + [att("x", "discuss", "-")]
-    df = scored(atts)
-    sub = df[(df.governor == "discuss") & (df.preposition == "about")]
-    if n < DEFAULTS["min_count"] or min(n, writers) < DEFAULTS["min_writers"]:
-        assert not sub.flagged.any()
+    sub = [r for r in scored(atts) if (r.governor, r.preposition) == ("discuss", "about")]
+    if n < DEFAULTS.min_count or min(n, writers) < DEFAULTS.min_writers:
+        assert not any(r.flagged for r in sub)
 
 
 @settings(max_examples=40, deadline=None)
@@ -145,4 +154,4 @@ def test_score_unrelated_counts_do_not_change_conditional_comparison(extra):
     atts = planted_class() + [att("zed", "unrelated", "of") for _ in range(3)]
     more = scored(atts, ref)
     for col in ("log_likelihood", "log_ratio", "reference_count", "reference_governor_count", "status"):
-        assert row(more, "discuss", "about")[col] == pytest.approx(row(base, "discuss", "about")[col])
+        assert getattr(row(more, "discuss", "about"), col) == pytest.approx(getattr(row(base, "discuss", "about"), col))

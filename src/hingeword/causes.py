@@ -36,10 +36,9 @@ Directional needs the static alternative in ≥ 20 % of the governor's uses.
 from __future__ import annotations
 
 from collections import Counter, defaultdict
-from collections.abc import Mapping, Sequence
-from dataclasses import asdict, dataclass
+from collections.abc import Iterable, Mapping, Sequence
 
-from .extract import NO_PREP
+from .record import NO_PREP, Advice, Cause, PatternRecord, Status
 from .rules import Rules
 
 LABELS = {
@@ -55,14 +54,6 @@ MIN_DIRECTIONAL_SHARE = 0.20
 L1_WEIGHT = 0.9
 #: related-word relations, in the order they are tried
 _RELATIONS = ("synonym", "similar", "antonym", "also_see")
-
-
-@dataclass(frozen=True)
-class Cause:
-    code: str
-    confidence: float
-    evidence: str
-    label: str
 
 
 def _damp(c: float) -> float:
@@ -154,16 +145,15 @@ class Categoriser:
                                 "with evidence in the reference", LABELS["unclear"])]
 
     # -------------------------------------------------------------- plain words
-    def describe(self, g: str, pos: str, prep: str, causes: Sequence[Cause]) -> dict:
-        """Suggestion fields and a short explanation a learner understands."""
+    def advise(self, g: str, pos: str, prep: str, causes: Sequence[Cause]) -> Advice:
+        """The suggestion and a short explanation a learner understands, with the ranked causes."""
+        causes = tuple(causes)
         sug = self.suggestion(g, pos, prep)
         if sug is None:
-            return {"suggestion": "", "suggested_preposition": "", "suggestion_share": None,
-                    "native_pattern": "", "explanation": "The reference has too few examples of this word to say more."}
+            return Advice(causes=causes, explanation="The reference has too few examples of this word to say more.")
         slot, share, _ = sug
-        thing = "something" if pos != "NOUN" else "something"
-        native = f"{g} {thing}" if slot == NO_PREP else f"{g} {slot} {thing}"
-        written = f"{g} {thing}" if prep == NO_PREP else f"{g} {prep} {thing}"
+        native = f"{g} something" if slot == NO_PREP else f"{g} {slot} something"
+        written = f"{g} something" if prep == NO_PREP else f"{g} {prep} something"
         if pos == "ADJ":
             native, written = f"be {native}", f"be {written}"
         suggestion = f"{g} + direct object" if slot == NO_PREP else f"{g} {slot}"
@@ -182,30 +172,36 @@ class Categoriser:
             text += f" ('{other}' is right, but '{g}' is different.)"
         elif top is not None and top.code == "directional":
             text += f" '{prep}' shows movement; here English does not."
-        return {"suggestion": suggestion, "suggested_preposition": slot, "suggestion_share": round(share, 4),
-                "native_pattern": native, "explanation": text}
+        return Advice(causes=causes, suggestion=suggestion, suggested_preposition=slot,
+                      suggestion_share=round(share, 4), native_pattern=native, explanation=text)
 
 
-def categorise_figures(figures: list[dict], reference, rules: Rules, l1_by_pattern: Mapping[tuple, Counter]) -> list[dict]:
-    """Add cause and suggestion fields to flagged and under-used figure rows (in place; returned)."""
+def l1_tallies(attachments: Iterable, l1_of: Mapping[str, str]) -> dict[tuple, Counter]:
+    """Per pattern key: how many of its instances writers of each first language wrote."""
+    out: dict[tuple, Counter] = defaultdict(Counter)
+    for a in attachments:
+        code = l1_of.get(a.writer)
+        if code:
+            out[a.key][code] += 1
+    return out
+
+
+def categorise(records: Sequence[PatternRecord], reference, rules: Rules,
+               l1_by_pattern: Mapping[tuple, Counter]) -> list[PatternRecord]:
+    """The records with :class:`~hingeword.record.Advice` for flagged and under-used patterns."""
     cat = Categoriser(reference, rules)
-    for f in figures:
-        key = (f["governor"], f["governor_pos"], f["preposition"])
-        if not (f.get("flagged") or f.get("status") == "under-used"):
-            f.update({"cause": "", "cause_label": "", "causes": [], "suggestion": "", "suggested_preposition": "",
-                      "suggestion_share": None, "native_pattern": "", "explanation": ""})
-            continue
-        if not f.get("flagged"):  # under-used: the native pattern the class avoids
-            g, pos, prep = key
+    out = []
+    for r in records:
+        if r.flagged:
+            causes = cat.categorise(*r.key, l1_counts=l1_by_pattern.get(r.key))
+            out.append(r.with_(advice=cat.advise(*r.key, causes)))
+        elif r.status is Status.UNDER_USED:  # the native pattern the class avoids
+            g, _, prep = r.key
             native = f"{g} something" if prep == NO_PREP else f"{g} {prep} something"
-            f.update({"cause": "", "cause_label": "", "causes": [], "suggested_preposition": prep,
-                      "suggestion": f"{g} + direct object" if prep == NO_PREP else f"{g} {prep}",
-                      "suggestion_share": f.get("reference_share"), "native_pattern": native,
-                      "explanation": f"Native writers use '{native}' much more often than this class does."})
-            continue
-        causes = cat.categorise(*key, l1_counts=l1_by_pattern.get(key))
-        f.update(cat.describe(*key, causes))
-        f["cause"] = causes[0].code if causes else ""
-        f["cause_label"] = causes[0].label if causes else ""
-        f["causes"] = [asdict(c) for c in causes]
-    return figures
+            out.append(r.with_(advice=Advice(
+                suggested_preposition=prep, suggestion=f"{g} + direct object" if prep == NO_PREP else f"{g} {prep}",
+                suggestion_share=r.reference_share, native_pattern=native,
+                explanation=f"Native writers use '{native}' much more often than this class does.")))
+        else:
+            out.append(r)
+    return out

@@ -1,20 +1,30 @@
 """Command-line interface (typer). Each command parses options, calls one library
 function and prints a short summary: data to stdout, progress and messages to stderr.
+
+A :class:`~hingeword.errors.HingewordError` from any command becomes one line
+``Error: …`` and exit code 1 (in :func:`_command`); usage errors exit 2.
 """
 
 from __future__ import annotations
 
+import functools
+import inspect
 import logging
 import sys
+from collections.abc import Callable
+from dataclasses import fields
+from enum import Enum
 from pathlib import Path
 from typing import Optional
 
 import typer
 from rich.console import Console
+from rich.markup import escape
 
 from . import __version__
 from .errors import HingewordError
-from .patterns import key_label
+from .record import parse_slot
+from .score import Thresholds
 
 app = typer.Typer(
     help="Find the preposition patterns a class over-uses compared with native writing.",
@@ -25,23 +35,85 @@ app = typer.Typer(
 reference_app = typer.Typer(help="Build, list and describe native references.", no_args_is_help=True)
 app.add_typer(reference_app, name="reference")
 
-out = Console(highlight=False, soft_wrap=True)
-err = Console(stderr=True, highlight=False, soft_wrap=True)
+# User text (class names, essays, file names) is printed as it is: no markup, no emoji codes.
+out = Console(highlight=False, soft_wrap=True, markup=False, emoji=False)
+err = Console(stderr=True, highlight=False, soft_wrap=True, markup=False, emoji=False)
+
+
+class Names(str, Enum):
+    pseudonyms = "pseudonyms"
+    real = "real"
+
+
+class RefFormat(str, Enum):
+    text = "text"
+    conllu = "conllu"
+
 
 DEFAULT_WORKSPACE = Path("hingeword-workspace")
 WorkspaceOpt = typer.Option(DEFAULT_WORKSPACE, "--workspace", "-w", help="Workspace folder (database, parse cache, references).")
 ClassOpt = typer.Option(..., "--class", help="Class name, e.g. 'evening-b2'.")
 TermOpt = typer.Option(..., "--term", help="Term name, e.g. '2026-spring'.")
+NamesOpt = typer.Option(Names.pseudonyms, "--names", help="Writers as pseudonyms (S01, S02 …; the default) or real names.")
+QuietOpt = typer.Option(False, "--quiet", "-q", help="No progress bar.")
+GovernorArg = typer.Argument(..., help="Governor lemma, e.g. 'discuss'.")
+SlotArg = typer.Argument(..., help="Preposition, or 'object' (also '-') for a direct object.")
 
 
 def _fail(msg: str, code: int = 1):
-    err.print(f"Error: {msg}", markup=False)
+    err.print(f"Error: {msg}")
     raise typer.Exit(code)
 
 
-def _check_names(names: str) -> None:
-    if names not in ("pseudonyms", "real"):
-        _fail(f"--names must be 'pseudonyms' or 'real', not '{names}'", 2)
+def _command(target: typer.Typer, name: str | None = None):
+    """Register a command; a :class:`HingewordError` it raises becomes ``Error: …`` and exit 1."""
+    def deco(fn: Callable) -> Callable:
+        @functools.wraps(fn)
+        def wrapper(*args, **kwargs):
+            try:
+                return fn(*args, **kwargs)
+            except HingewordError as exc:
+                _fail(str(exc))
+
+        target.command(name)(wrapper)
+        return fn
+
+    return deco
+
+
+def _with_threshold_options(fn: Callable) -> Callable:
+    """Give ``fn`` one option per :class:`~hingeword.score.Thresholds` field (``min_count`` → ``--min-count``),
+    with the field's default and help, collected into a ``thresholds`` argument."""
+    sig = inspect.signature(fn)
+    params = [p for p in sig.parameters.values() if p.name != "thresholds"]
+    defaults = Thresholds()
+    annotations = dict(fn.__annotations__)
+    annotations.pop("thresholds", None)
+    names = []
+    for f in fields(Thresholds):
+        default = getattr(defaults, f.name)
+        kind = type(default)
+        extra = {k: f.metadata[k] for k in ("min", "max") if f.metadata.get(k) is not None}
+        option = typer.Option(default, "--" + f.name.replace("_", "-"), help=f.metadata["help"], **extra)
+        params.append(inspect.Parameter(f.name, inspect.Parameter.KEYWORD_ONLY, default=option, annotation=kind))
+        annotations[f.name] = kind
+        names.append(f.name)
+
+    @functools.wraps(fn)
+    def wrapper(*args, **kwargs):
+        values = {n: kwargs.pop(n) for n in names}
+        return fn(*args, thresholds=Thresholds(**values), **kwargs)
+
+    del wrapper.__wrapped__
+    wrapper.__signature__ = sig.replace(parameters=params)
+    wrapper.__annotations__ = annotations
+    return wrapper
+
+
+def _progress(quiet: bool):
+    from rich.progress import Progress
+
+    return Progress(console=err, transient=True, disable=quiet or not err.is_terminal)
 
 
 def _setup_logging(verbose: bool) -> None:
@@ -62,7 +134,8 @@ def _main(
     _setup_logging(verbose)
 
 
-@app.command()
+@_command(app)
+@_with_threshold_options
 def scan(
     essays: Path = typer.Argument(..., help="Folder of essays (.txt, .docx, .odt, or one .csv with writer,text)."),
     class_name: str = ClassOpt,
@@ -72,14 +145,6 @@ def scan(
     model: Optional[str] = typer.Option(None, "--model", help="spaCy pipeline (package name or path)."),
     processes: Optional[int] = typer.Option(None, "--processes", min=1, help="Parser processes (default: all cores)."),
     reference: list[str] = typer.Option([], "--reference", help="Reference name or folder (repeatable; default: brown)."),
-    min_count: int = typer.Option(3, "--min-count", min=1, help="Instances a pattern needs to be flagged."),
-    min_writers: int = typer.Option(2, "--min-writers", min=1, help="Distinct writers a pattern needs to be flagged."),
-    min_reference: int = typer.Option(20, "--min-reference", min=0, help="Attachments the governor needs in the reference."),
-    min_g2: float = typer.Option(10.83, "--min-g2", min=0, help="Log-likelihood G2 threshold (10.83: p < .001)."),
-    min_log_ratio: float = typer.Option(1.0, "--min-log-ratio", help="Log Ratio threshold (1 = twice the native rate)."),
-    max_native_share: float = typer.Option(0.05, "--max-native-share", min=0, max=1, help="Not flagged when natives use the form this often (share of the governor's uses)."),
-    max_dispersion: float = typer.Option(0.8, "--max-dispersion", min=0, max=1, help="Not flagged when Gries's DP over writers is higher (use concentrated in a few writers)."),
-    measure: str = typer.Option("oe", "--measure", help="Score of the collocation ratio: oe, mi or logdice."),
     term_start: Optional[str] = typer.Option(None, "--term-start", help="First day of the term, YYYY-MM-DD (orders terms; default: today)."),
     l1: Optional[str] = typer.Option(None, "--l1", help="Learners' first language (ISO 639-1) when the manifest has none."),
     rules: list[Path] = typer.Option([], "--rules", help="Extra rules folder overlaying the bundled rules (repeatable)."),
@@ -87,178 +152,89 @@ def scan(
     top: int = typer.Option(10, "--top", min=0, help="How many patterns to list."),
     report: bool = typer.Option(False, "--report", help="Also write the handouts, overview and student sheets."),
     out_dir: Path = typer.Option(Path("hingeword-reports"), "--out", help="Folder for reports (with --report)."),
-    names: str = typer.Option("pseudonyms", "--names", help="pseudonyms (default) or real."),
-    quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bar."),
+    names: Names = NamesOpt,
+    quiet: bool = QuietOpt,
+    thresholds: Thresholds = None,
 ):
     """Scan a folder of essays for one class and term, and store the run."""
-    from rich.progress import Progress
-
+    from .console import scan_summary
     from .pipeline import scan as run_scan
 
     if not essays.exists():
         _fail(f"essay folder not found: {essays}")
-    settings = dict(min_count=min_count, min_writers=min_writers, min_reference=min_reference, min_g2=min_g2,
-                    min_log_ratio=min_log_ratio, max_native_share=max_native_share, max_dispersion=max_dispersion, measure=measure)
-    try:
-        with Progress(console=err, transient=True, disable=quiet) as bar:
-            task = bar.add_task("parsing essays", total=None)
-            result = run_scan(
-                essays, class_name=class_name, term=term, workspace=workspace, manifest=manifest, model=model,
-                processes=processes, references=reference, settings=settings, term_start=term_start, l1=l1,
-                rules_dirs=rules, encoding=encoding, progress=lambda done, total: bar.update(task, completed=done, total=total),
-            )
-    except HingewordError as exc:
-        _fail(str(exc))
-    print_scan_summary(result, top)
+    with _progress(quiet) as bar:
+        task = bar.add_task("parsing essays", total=None)
+        result = run_scan(
+            essays, class_name=class_name, term=term, workspace=workspace, manifest=manifest, model=model,
+            processes=processes, references=reference, thresholds=thresholds, term_start=term_start, l1=l1,
+            rules_dirs=rules, encoding=encoding, progress=lambda done, total: bar.update(task, completed=done, total=total),
+        )
+    for line in scan_summary(result, top):
+        out.print(line)
     if report:
-        _write_reports(workspace, class_name, term, out_dir, top=5, names=names)
+        _reports(workspace, class_name, term, out_dir, top=5, names=names, match=False)
 
 
-def _write_reports(workspace: Path, class_name: str, term: str, out_dir: Path, *, top: int, names: str,
-                   match: bool = False) -> None:
-    from .history import Workspace
-    from .report import write_reports
+def _reports(workspace: Path, class_name: str, term: str, out_dir: Path, *, top: int, names: Names, match: bool) -> None:
+    from .report import make_reports
 
-    _check_names(names)
-    try:
-        with Workspace(workspace, create=False) as ws:
-            paths = write_reports(ws, class_name, term, out_dir, top=top, names=names, match=match)
-    except HingewordError as exc:
-        _fail(str(exc))
-    out.print(f"reports written to {paths.folder}; open {paths.handout} first", markup=False)
+    paths = make_reports(workspace, class_name, term, out_dir, top=top, names=names.value, match=match)
+    out.print(f"reports written to {paths.folder}; open {paths.handout} first")
 
 
-@app.command()
+@_command(app)
 def report(
     class_name: str = ClassOpt,
     term: str = TermOpt,
     workspace: Path = WorkspaceOpt,
     out_dir: Path = typer.Option(Path("hingeword-reports"), "--out", help="Folder to write into."),
     top: int = typer.Option(5, "--top", min=1, help="Patterns on the class handout."),
-    names: str = typer.Option("pseudonyms", "--names", help="pseudonyms (default) or real."),
+    names: Names = NamesOpt,
     match_writers: bool = typer.Option(False, "--match-writers", help="Link writers to last term's by name similarity (see 'trends --match-writers')."),
 ):
     """Write the class handout (with teacher copy), teacher overview, student sheets and patterns.csv."""
-    _write_reports(workspace, class_name, term, out_dir, top=top, names=names, match=match_writers)
+    _reports(workspace, class_name, term, out_dir, top=top, names=names, match=match_writers)
 
 
-def print_scan_summary(result, top: int) -> None:
-    ing = result.ingest
-    st = result.parse_stats
-    out.print(f"hingeword {__version__} · model {result.model} · reference {result.reference_name}")
-    out.print(f"{result.class_name} / {result.term}: {len(ing.essays)} essays read, {len(ing.skipped)} skipped, "
-              f"{ing.word_count:,} words; parsed {st.parsed}, from cache {st.from_cache}")
-    for s in ing.skipped:
-        out.print(f"  skipped {s.source}: {s.reason}", markup=False)
-    for group in ing.duplicates:
-        out.print(f"  identical essays (kept): {', '.join(group)}", markup=False)
-    for nd in ing.near_duplicates:
-        out.print(f"  near-duplicates (kept): {nd.first} ~ {nd.second} ({nd.similarity:.0f}%)", markup=False)
-    for (lemma, pos), known in sorted(result.typo_groups.items()):
-        target = known if isinstance(known, str) else f"{known[0]}' ({known[1]}"
-        out.print(f"  spelling: '{lemma}' ({pos}) counted as '{target}'", markup=False)
-    df = result.patterns
-    out.print(f"{result.attachments:,} attachments in {int((df.learner_count > 0).sum()):,} patterns; "
-              f"{int(df.flagged.sum())} flagged as over-used, {int((df.status == 'under-used').sum())} under-used")
-    flagged = df[df.flagged]
-    if len(flagged):
-        out.print("Over-used (candidates for your judgement, not verdicts):")
-        for line in pattern_lines(flagged.head(top)):
-            out.print("  " + line, markup=False)
-        by_key = {(f["governor"], f["governor_pos"], f["preposition"]): f for f in result.figures}
-        out.print("Likely reasons and native use:")
-        for r in flagged.head(top).itertuples():
-            f = by_key.get((r.governor, r.governor_pos, r.preposition), {})
-            out.print(f"  {key_label(r.governor, r.preposition)}: {f.get('cause', '')} → {f.get('suggestion', '')} "
-                      f"— {f.get('explanation', '')}", markup=False)
-    under = df[df.status == "under-used"]
-    if len(under):
-        out.print("Under-used (native patterns the class avoids):")
-        for line in pattern_lines(under.head(top)):
-            out.print("  " + line, markup=False)
-    if not len(flagged):
-        out.print("Most used patterns:")
-        for line in pattern_lines(df.sort_values(["learner_writers", "learner_count"], ascending=False).head(top)):
-            out.print("  " + line, markup=False)
-
-
-def pattern_lines(df) -> list[str]:
-    lines = []
-    for r in df.itertuples():
-        label = key_label(r.governor, r.preposition)
-        writers = f"{r.learner_writers} writer{'' if r.learner_writers == 1 else 's'}"
-        lines.append(
-            f"{label:<24} {r.learner_count:>3}× by {writers} "
-            f"({100 * r.learner_share:.0f}% of {r.governor}); native {r.reference_count} of "
-            f"{r.reference_governor_count} ({100 * r.reference_share:.1f}%); LR {r.log_ratio:+.1f}, G2 {r.log_likelihood:.1f}"
-        )
-    return lines
-
-
-@app.command()
+@_command(app)
 def export(
     class_name: str = ClassOpt,
     term: str = TermOpt,
     workspace: Path = WorkspaceOpt,
     output: Path = typer.Option(..., "-o", "--output", help="File to write: .csv, .xlsx or .json."),
     kwic_output: Optional[Path] = typer.Option(None, "--concordance", help="Also write every instance as a KWIC line to this .csv/.xlsx/.json file."),
-    names: str = typer.Option("pseudonyms", "--names", help="Writer ids in the concordance: pseudonyms (default) or real."),
+    names: Names = NamesOpt,
 ):
     """Export one row per pattern (CSV, XLSX or JSON by the file's suffix), with the teacher's decisions."""
-    from .export import concordance_frame, patterns_frame, write_table
-    from .history import Workspace
+    from .export import export_run
 
-    _check_names(names)
-    try:
-        with Workspace(workspace, create=False) as ws:
-            df = patterns_frame(ws.figures_in_context(class_name, term))
-            if kwic_output is not None:
-                run = ws.run(class_name, term)
-                codes = None if names == "real" else ws.writer_codes(class_name)
-                texts = {e["essay_id"]: e["text"] for e in ws.essays(run["id"])}
-                kwic_df = concordance_frame(ws.attachments(run["id"]), texts, codes)
-        write_table(df, output)
-        if kwic_output is not None:
-            write_table(kwic_df, kwic_output)
-            err.print(f"wrote {len(kwic_df)} concordance lines to {kwic_output}")
-    except HingewordError as exc:
-        _fail(str(exc))
-    err.print(f"wrote {len(df)} patterns to {output}")
+    res = export_run(workspace, class_name, term, output, concordance=kwic_output, names=names.value)
+    if res.concordance_path is not None:
+        err.print(f"wrote {res.concordance_lines} concordance lines to {res.concordance_path}")
+    err.print(f"wrote {res.patterns} patterns to {res.path}")
 
 
-@app.command()
+@_command(app)
 def concordance(
-    governor: str = typer.Argument(..., help="Governor lemma, e.g. discuss."),
-    preposition: str = typer.Argument(..., help="Preposition, or - for a direct object."),
+    governor: str = GovernorArg,
+    preposition: str = SlotArg,
     class_name: str = ClassOpt,
     term: str = TermOpt,
     workspace: Path = WorkspaceOpt,
     width: int = typer.Option(40, "--width", min=10, help="Characters of context on each side."),
-    names: str = typer.Option("pseudonyms", "--names", help="pseudonyms (default: stable codes S01, S02 …) or real."),
+    names: Names = NamesOpt,
 ):
     """Print key-word-in-context lines of one pattern with writer ids (pseudonymised by default)."""
-    from .export import kwic
-    from .history import Workspace
+    from .export import concordance_lines
 
-    try:
-        with Workspace(workspace, create=False) as ws:
-            run = ws.run(class_name, term)
-            atts = [a for a in ws.attachments(run["id"])
-                    if a.governor == governor.lower() and a.preposition == preposition.lower()]
-            texts = {e["essay_id"]: e["text"] for e in ws.essays(run["id"])}
-            codes = ws.writer_codes(class_name)
-    except HingewordError as exc:
-        _fail(str(exc))
-    _check_names(names)
-    if not atts:
-        _fail(f"no '{governor} + {preposition}' in {class_name} / {term}")
-    for writer, left, key, right, _ in kwic(atts, texts, width):
-        who = writer if names == "real" else codes.get(writer, "S??")
-        out.print(f"{who[:14]:<14} {left:>{width}} [{key}] {right}", markup=False)
-    err.print(f"{len(atts)} lines")
+    lines = concordance_lines(workspace, class_name, term, governor, parse_slot(preposition), names=names.value,
+                              width=width)
+    for line in lines:
+        out.print(line)
+    err.print(f"{len(lines)} lines")
 
 
-@app.command()
+@_command(app)
 def trends(
     class_name: str = ClassOpt,
     workspace: Path = WorkspaceOpt,
@@ -266,30 +242,13 @@ def trends(
     match_writers: bool = typer.Option(False, "--match-writers", help="Propose fuzzy matches of writer names across terms."),
 ):
     """Show per term what recurs, what is new, what is fading and what has gone."""
-    from .history import Workspace
-    from .trends import MATCH_THRESHOLD, compute_trends, text_table, writer_matches
+    from .report import make_trends
 
-    try:
-        with Workspace(workspace, create=False) as ws:
-            tr = compute_trends(ws, class_name)
-            for line in text_table(tr):
-                out.print(line, markup=False)
-            if match_writers:
-                out.print(f"Proposed writer matches (name similarity ≥ {MATCH_THRESHOLD:.0f}; please check):")
-                found = False
-                for t in tr.terms:
-                    for cur, prev, score in writer_matches(ws, t["class"], t["term"]):
-                        found = True
-                        out.print(f"  {t['term']}: '{cur}' = '{prev}' ({score:.0f})", markup=False)
-                if not found:
-                    out.print("  none")
-            if out_dir is not None:
-                from .report import write_trends
-
-                path = write_trends(ws, class_name, out_dir, match=match_writers)
-                out.print(f"wrote {path}", markup=False)
-    except HingewordError as exc:
-        _fail(str(exc))
+    res = make_trends(workspace, class_name, out_dir=out_dir, match=match_writers)
+    for line in res.lines:
+        out.print(line)
+    if res.path is not None:
+        out.print(f"wrote {res.path}")
 
 
 ScopeClass = typer.Option(None, "--class", help="The class the decision applies to.")
@@ -302,93 +261,77 @@ def _scope(class_name: Optional[str], all_classes: bool) -> Optional[str]:
     return None if all_classes else class_name
 
 
-@app.command()
+@_command(app)
 def dismiss(
-    governor: str = typer.Argument(..., help="Governor lemma, e.g. 'discuss'."),
-    preposition: str = typer.Argument(..., help="Preposition, or - for a direct object."),
+    governor: str = GovernorArg,
+    preposition: str = SlotArg,
     class_name: Optional[str] = ScopeClass,
     all_classes: bool = AllClasses,
     reason: str = typer.Option(..., "--reason", help="Why (shown in the teacher overview)."),
     workspace: Path = WorkspaceOpt,
 ):
     """Dismiss a flagged pattern: it leaves the handouts and stays listed in the overview."""
-    from .history import Workspace
+    from .review import dismiss as do_dismiss
 
-    scope = _scope(class_name, all_classes)
-    try:
-        with Workspace(workspace, create=False) as ws:
-            if scope:
-                ws.require_class(scope)
-            ws.dismiss(governor, preposition, class_name=scope, reason=reason)
-    except HingewordError as exc:
-        _fail(str(exc))
-    out.print(f"dismissed '{governor} + {preposition}' for {scope or 'all classes'}: {reason}", markup=False)
+    res = do_dismiss(workspace, governor.lower(), parse_slot(preposition), class_name=_scope(class_name, all_classes),
+                     reason=reason)
+    out.print(f"dismissed '{res.label}' for {res.scope}: {reason}")
+    if not res.occurrences:
+        err.print(f"Warning: '{res.label}' does not occur in any stored run of {res.scope}; check the spelling "
+                  "(the decision is kept for later terms)")
+    err.print("Rebuild the reports to update the handouts: hingeword report --class … --term …")
 
 
-@app.command()
+@_command(app)
 def restore(
-    governor: str = typer.Argument(..., help="Governor lemma."),
-    preposition: str = typer.Argument(..., help="Preposition, or -."),
+    governor: str = GovernorArg,
+    preposition: str = SlotArg,
     class_name: Optional[str] = ScopeClass,
     all_classes: bool = AllClasses,
     workspace: Path = WorkspaceOpt,
 ):
     """Undo a dismissal."""
-    from .history import Workspace
+    from .review import restore as do_restore
 
-    scope = _scope(class_name, all_classes)
-    try:
-        with Workspace(workspace, create=False) as ws:
-            done = ws.restore(governor, preposition, class_name=scope)
-    except HingewordError as exc:
-        _fail(str(exc))
-    if not done:
-        _fail(f"'{governor} + {preposition}' was not dismissed for {scope or 'all classes'}")
-    out.print(f"restored '{governor} + {preposition}' for {scope or 'all classes'}", markup=False)
+    res = do_restore(workspace, governor.lower(), parse_slot(preposition), class_name=_scope(class_name, all_classes))
+    out.print(f"restored '{res.label}' for {res.scope}")
+    err.print("Rebuild the reports to update the handouts: hingeword report --class … --term …")
 
 
-@app.command("link-classes")
+@_command(app, "link-classes")
 def link_classes(
     old: str = typer.Argument(..., help="Earlier class name."),
     new: str = typer.Argument(..., help="Class name that continues it."),
     workspace: Path = WorkspaceOpt,
 ):
     """Group two classes (the same students under a new class name) for trends and decisions."""
-    from .history import Workspace
+    from .review import link_classes as do_link
 
-    try:
-        with Workspace(workspace, create=False) as ws:
-            ws.link_classes(old, new)
-    except HingewordError as exc:
-        _fail(str(exc))
-    out.print(f"linked {old} → {new}", markup=False)
+    do_link(workspace, old, new)
+    out.print(f"linked {old} → {new}")
 
 
-@app.command()
+@_command(app)
 def demo(
     workspace: Optional[Path] = typer.Option(None, "--workspace", "-w", help="Workspace folder (default: a fresh temporary one)."),
     out_dir: Path = typer.Option(Path("hingeword-demo"), "--out", help="Folder for the demo's reports."),
-    quiet: bool = typer.Option(False, "--quiet", "-q"),
+    quiet: bool = QuietOpt,
 ):
     """Run the invented demo: two classes, three terms each, end to end."""
     from .demo import run_demo
 
-    try:
-        summary = run_demo(workspace=workspace, out_dir=out_dir, log=None if quiet else lambda m: err.print(m, markup=False))
-    except HingewordError as exc:
-        _fail(str(exc))
-    for line in summary:
-        out.print(line, markup=False)
+    for line in run_demo(workspace=workspace, out_dir=out_dir, log=None if quiet else err.print):
+        out.print(line)
 
 
 # ------------------------------------------------------------------ reference
 
 
-@reference_app.command("build")
+@_command(reference_app, "build")
 def reference_build(
     source: Path = typer.Argument(..., help="Folder of native .txt files (recursive), or of .conllu files."),
-    name: str = typer.Option(..., "--name", help="Name of the new reference."),
-    fmt: str = typer.Option("text", "--format", help="text or conllu."),
+    name: str = typer.Option(..., "--name", help="Name of the new reference (letters, digits, . _ + -)."),
+    fmt: RefFormat = typer.Option(RefFormat.text, "--format", help="Input format."),
     workspace: Path = WorkspaceOpt,
     output: Optional[Path] = typer.Option(None, "--output", "-o", help="Folder to write (default: WORKSPACE/references/NAME)."),
     model: Optional[str] = typer.Option(None, "--model", help="spaCy pipeline for text input."),
@@ -397,60 +340,47 @@ def reference_build(
     licence: str = typer.Option("not stated", "--licence", help="Licence of the source texts."),
     limits: str = typer.Option("", "--limits", help="What the reference does not represent."),
     build_date: Optional[str] = typer.Option(None, "--build-date", help="Date to record (default: today)."),
-    quiet: bool = typer.Option(False, "--quiet", "-q"),
+    quiet: bool = QuietOpt,
 ):
     """Build a reference from native writing (resumes after an interruption)."""
-    from rich.progress import Progress
-
     from . import reference as ref
 
+    ref.check_name(name)
     target = output or ref.references_dir(workspace) / name
-    try:
-        with Progress(console=err, transient=True, disable=quiet) as bar:
-            task = bar.add_task(f"building {name}", total=None)
-            path = ref.build(source, target, name=name, fmt=fmt, model=model, processes=processes,
-                             description=description, licence=licence, limits=limits, build_date=build_date,
-                             progress=lambda p: bar.update(task, completed=p.files_done, total=p.files_total))
-        manifest = ref.read_manifest(path)
-    except HingewordError as exc:
-        _fail(str(exc))
+    with _progress(quiet) as bar:
+        task = bar.add_task(f"building {escape(name)}", total=None)
+        path = ref.build(source, target, name=name, fmt=fmt.value, model=model, processes=processes,
+                         description=description, licence=licence, limits=limits, build_date=build_date,
+                         progress=lambda p: bar.update(task, completed=p.files_done, total=p.files_total))
+    manifest = ref.read_manifest(path)
     out.print(f"built {name} at {path}: {manifest['documents']} files, {manifest['words']:,} words, "
               f"{manifest['attachments']:,} attachments, parser {manifest['model']} {manifest['model_version']}")
 
 
-@reference_app.command("list")
+@_command(reference_app, "list")
 def reference_list(workspace: Path = WorkspaceOpt):
     """List the bundled references and those in the workspace."""
     from . import reference as ref
 
     for path, man in ref.list_references(workspace):
         if "error" in man:
-            out.print(f"{man['name']:<16} {man['error']}", markup=False)
+            out.print(f"{man['name']:<16} {man['error']}")
         else:
-            out.print(f"{man['name']:<16} {int(man.get('words', 0)):>11,} words  {man.get('source', '')}  [{path}]", markup=False)
+            out.print(f"{man['name']:<16} {int(man.get('words', 0)):>11,} words  {man.get('source', '')}  [{path}]")
 
 
-@reference_app.command("info")
+@_command(reference_app, "info")
 def reference_info(name: str = typer.Argument(..., help="Reference name or folder."), workspace: Path = WorkspaceOpt):
     """Show a reference's manifest: source, licence, size, parser, limits."""
     from . import reference as ref
 
-    try:
-        path = ref.resolve(name, workspace)
-        man = ref.read_manifest(path)
-    except HingewordError as exc:
-        _fail(str(exc))
-    for key in ("name", "source", "licence", "limits", "words", "sentences", "documents", "attachments", "patterns",
-                "model", "model_version", "extractor_version", "build_date"):
-        if key in man:
-            val = f"{man[key]:,}" if isinstance(man[key], int) else man[key]
-            out.print(f"{key:<18} {val}", markup=False)
-    out.print(f"{'path':<18} {path}", markup=False)
+    for line in ref.describe(ref.resolve(name, workspace)):
+        out.print(line)
 
 
 def main() -> None:
     try:
         app()
-    except HingewordError as exc:  # a library error that slipped past a command
-        err.print(f"Error: {exc}", markup=False)
+    except HingewordError as exc:  # a library error raised outside a command (e.g. in a callback)
+        err.print(f"Error: {exc}")
         sys.exit(1)

@@ -15,7 +15,7 @@ from pathlib import Path
 
 from . import __version__
 from .errors import HingewordError
-from .patterns import key_label
+from .record import key_label
 
 
 def demo_dir() -> Path:
@@ -74,11 +74,11 @@ def run_demo(
             res = scan(folder, class_name=row["class"], term=row["term"], workspace=workspace,
                        manifest=manifest if manifest.exists() else None, processes=processes,
                        term_start=row["term_start"])
-            flagged = res.patterns[res.patterns.flagged]
+            flagged = res.flagged
             skipped = "; ".join(f"{s.source}: {s.reason}" for s in res.ingest.skipped) or "none"
             lines.append(f"{row['class']} / {row['term']}: {len(res.ingest.essays)} essays, "
                          f"{res.ingest.word_count:,} words, {len(flagged)} patterns flagged "
-                         f"({', '.join(key_label(r.governor, r.preposition) for r in flagged.itertuples()) or 'none'}); "
+                         f"({', '.join(key_label(r.governor, r.preposition) for r in flagged) or 'none'}); "
                          f"skipped: {skipped}")
             enc = [e for e in res.ingest.essays if e.encoding not in ("utf-8", "ascii", "docx", "odt")]
             for e in enc:

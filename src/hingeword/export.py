@@ -1,41 +1,36 @@
 """Exports for researchers: one row per pattern (CSV, XLSX, JSON) and KWIC lines.
 
-Column contract (order and spelling fixed): ``governor, governor_pos,
-preposition, learner_count, learner_writers, learner_governor_count,
-reference_count, reference_governor_count, collocation_ratio, log_likelihood,
-log_ratio, flagged, status, cause, suggestion``, then the extra figures.
-``flagged`` is written ``true``/``false``.
+Column contract (order and spelling fixed): :data:`hingeword.record.CONTRACT` —
+``governor, governor_pos, preposition, learner_count, learner_writers,
+learner_governor_count, reference_count, reference_governor_count,
+collocation_ratio, log_likelihood, log_ratio, flagged, status, cause,
+suggestion`` — then the further columns of :data:`hingeword.record.COLUMNS`.
+``flagged`` and ``dismissed`` are written ``true``/``false``.
 """
 
 from __future__ import annotations
 
 import json
+from collections.abc import Sequence
+from dataclasses import dataclass
 from pathlib import Path
 
 import pandas as pd
 
 from .errors import HingewordError
 from .extract import Attachment
-from .score import CONTRACT as SCORE_CONTRACT
-from .score import EXTRA
+from .record import COLUMNS, CONTRACT, PatternRecord
 
-CONTRACT = [*SCORE_CONTRACT, "cause", "suggestion"]
+__all__ = ["COLUMNS", "CONTRACT", "KWIC_COLUMNS", "SUFFIXES", "ExportResult", "concordance_frame", "export_run",
+           "kwic", "records_frame", "write_table"]
+
 SUFFIXES = (".csv", ".xlsx", ".json")
+_BOOLEAN_COLUMNS = ("flagged", "dismissed")
 
 
-def patterns_frame(figures: list[dict]) -> pd.DataFrame:
-    """The stored figures of a run as a DataFrame in contract order, rows as stored."""
-    df = pd.DataFrame(figures)
-    for col in CONTRACT:
-        if col not in df.columns:
-            df[col] = "" if col in ("cause", "suggestion", "status") else pd.NA
-    extra = [c for c in EXTRA if c in df.columns] + sorted(c for c in df.columns if c not in CONTRACT and c not in EXTRA)
-    return df[CONTRACT + extra]
-
-
-def write_patterns(df: pd.DataFrame, path: str | Path) -> Path:
-    """Write by the file's suffix: .csv (UTF-8), .xlsx or .json (records)."""
-    return write_table(df, path)
+def records_frame(records: Sequence[PatternRecord]) -> pd.DataFrame:
+    """Pattern records as a DataFrame with the :data:`~hingeword.record.COLUMNS`, in the order given."""
+    return pd.DataFrame([r.to_row() for r in records], columns=list(COLUMNS))
 
 
 def write_table(df: pd.DataFrame, path: str | Path) -> Path:
@@ -46,8 +41,9 @@ def write_table(df: pd.DataFrame, path: str | Path) -> Path:
         raise HingewordError(f"cannot export to '{path.name}': use a file ending in .csv, .xlsx or .json")
     path.parent.mkdir(parents=True, exist_ok=True)
     out = df.copy()
-    if "flagged" in out.columns:
-        out["flagged"] = out["flagged"].map(lambda v: "true" if v is not pd.NA and v is not None and v == True else "false")  # noqa: E712
+    for col in _BOOLEAN_COLUMNS:
+        if col in out.columns:
+            out[col] = out[col].map(lambda v: "true" if v is not pd.NA and v is not None and v == True else "false")  # noqa: E712
     if suffix in (".csv", ".xlsx"):  # nested values (all causes with evidence) as a JSON column
         for col in out.columns:
             if out[col].map(lambda v: isinstance(v, (list, dict))).any():
@@ -95,3 +91,58 @@ def concordance_frame(attachments: list[Attachment], texts: dict[str, str], code
         rows.append([writer if codes is None else codes.get(writer, "S??"), essay if codes is None else "",
                      a.governor, a.governor_pos, a.preposition, a.governor_text, left, key, right, a.sentence])
     return pd.DataFrame(rows, columns=KWIC_COLUMNS)
+
+
+@dataclass(frozen=True)
+class ExportResult:
+    patterns: int
+    path: Path
+    concordance_lines: int = 0
+    concordance_path: Path | None = None
+
+
+def export_run(workspace: str | Path, class_name: str, term: str, output: str | Path, *,
+               concordance: str | Path | None = None, names: str = "pseudonyms") -> ExportResult:
+    """Write one run's patterns (and optionally every instance as KWIC rows) by the files' suffixes.
+
+    :param names: writer ids in the concordance: ``"pseudonyms"`` (default) or ``"real"``.
+    """
+    from .history import Workspace
+    from .view import load_run_view
+
+    for target in (output, concordance):
+        if target is not None and Path(target).suffix.lower() not in SUFFIXES:
+            raise HingewordError(f"cannot export to '{Path(target).name}': use a file ending in .csv, .xlsx or .json")
+    with Workspace(workspace, create=False) as ws:
+        view = load_run_view(ws, class_name, term, progress=False)
+    path = write_table(records_frame(view.records), output)
+    if concordance is None:
+        return ExportResult(len(view.records), path)
+    codes = None if names == "real" else dict(view.codes)
+    texts = {e.essay_id: e.text for e in view.essays}
+    kwic_df = concordance_frame(list(view.attachments), texts, codes)
+    kpath = write_table(kwic_df, concordance)
+    return ExportResult(len(view.records), path, len(kwic_df), kpath)
+
+
+def concordance_lines(workspace: str | Path, class_name: str, term: str, governor: str, preposition: str, *,
+                      names: str = "pseudonyms", width: int = 40) -> list[str]:
+    """Key-word-in-context lines of one pattern, each starting with the writer (a pseudonym by default).
+
+    :raises HingewordError: no such run, or the pattern does not occur in it.
+    """
+    from .history import Workspace
+    from .record import key_label
+
+    with Workspace(workspace, create=False) as ws:
+        run = ws.run(class_name, term)
+        atts = ws.attachments(run.id, key=(governor.lower(), None, preposition.lower()))
+        if not atts:
+            raise HingewordError(f"no '{key_label(governor, preposition)}' in {class_name} / {term}")
+        wanted = {a.essay_id for a in atts}
+        texts = {e.essay_id: e.text for e in ws.essays(run.id) if e.essay_id in wanted}
+        codes = ws.writer_codes(class_name)
+    rows = [(writer if names == "real" else codes.get(writer, "S??"), left, key, right)
+            for writer, left, key, right, _ in kwic(atts, texts, width)]
+    pad = max(len(r[0]) for r in rows)
+    return [f"{who:<{pad}} {left:>{width}} [{key}] {right}" for who, left, key, right in rows]

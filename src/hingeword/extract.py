@@ -29,8 +29,10 @@ Repairs for learner errors that mislead the small pipeline (each documented in
 
 from __future__ import annotations
 
-from collections.abc import Iterable
-from dataclasses import dataclass, replace
+import re
+from dataclasses import dataclass
+
+from .record import NO_PREP
 
 GOVERNOR_POS = frozenset({"VERB", "ADJ", "NOUN"})
 #: Heads of time expressions (lemmas, lower case): weekdays, months, seasons, parts of
@@ -43,7 +45,6 @@ TIME_WORDS = frozenset(
     year decade century term semester holiday holidays vacation o'clock pm am a.m. p.m.""".split()
 )
 PREP_DEPS = frozenset({"prep", "agent", "prt"})
-NO_PREP = "-"
 _EXCLUDED_PREPS = frozenset({"than"})
 
 #: Multiword prepositions kept whole (common practice in ESL grammars), longest first.
@@ -135,6 +136,9 @@ def governor_of(head):
 TIME_PREPS = frozenset("on in at during for since until till by before after through throughout from over within".split())
 
 
+_CLOCK = re.compile(r"\d{1,2}[:.]\d{2}")
+
+
 def is_temporal(prep) -> bool:
     """True when a time preposition's object is a time expression (see :data:`TIME_WORDS`)."""
     if prep.lower_ not in TIME_PREPS:
@@ -145,7 +149,9 @@ def is_temporal(prep) -> bool:
         low = obj.lemma_.lower()
         if low in TIME_WORDS or obj.lower_ in TIME_WORDS:
             return True
-        if obj.like_num and (len(obj.text) == 4 and obj.text[:2] in ("19", "20") or ":" in obj.text):
+        if obj.like_num and len(obj.text) == 4 and obj.text[:2] in ("19", "20"):
+            return True
+        if _CLOCK.fullmatch(obj.text):  # "at 10:30" (like_num is false for a clock time)
             return True
         if obj.like_num and any(c.lower_ in ("pm", "am", "a.m.", "p.m.", "o'clock") for c in obj.rights):
             return True
@@ -160,7 +166,7 @@ def _multiword_at(doc, i: int) -> tuple[str, ...] | None:
     return None
 
 
-def _make(doc, gov, first, last, prep: str, relation: str, essay_id: str, writer: str) -> Attachment:
+def _make(gov, first, last, prep: str, relation: str, essay_id: str, writer: str) -> Attachment:
     sent = gov.sent
     return Attachment(
         essay_id=essay_id,
@@ -204,7 +210,7 @@ def extract_doc(doc, essay_id: str = "", writer: str = "") -> list[Attachment]:
         consumed |= inside
         gov = governor_of(heads[0])
         if gov is not None:
-            out.append(_make(doc, gov, span[0], span[-1], " ".join(seq), "multiword", essay_id, writer))
+            out.append(_make(gov, span[0], span[-1], " ".join(seq), "multiword", essay_id, writer))
     for tok in doc:
         if tok.i in consumed:
             continue
@@ -232,31 +238,11 @@ def extract_doc(doc, essay_id: str = "", writer: str = "") -> list[Attachment]:
                 continue
             gov = governor_of(head)
             if gov is not None:
-                out.append(_make(doc, gov, tok, tok, word, relation, essay_id, writer))
+                out.append(_make(gov, tok, tok, word, relation, essay_id, writer))
         elif dep == "dobj" and repaired_pos(head) == "VERB":
             # the slot spans the object phrase up to its head ("the radio"), so a
             # suggested preposition can be inserted at its start
             first = tok.left_edge if tok.left_edge.i > head.i else tok
-            out.append(_make(doc, head, first, tok, NO_PREP, "dobj", essay_id, writer))
+            out.append(_make(head, first, tok, NO_PREP, "dobj", essay_id, writer))
     out.sort(key=lambda a: (a.gov_start, a.prep_start, a.preposition))
-    return out
-
-
-def regroup_typos(attachments: Iterable[Attachment], mapping: dict) -> list[Attachment]:
-    """Replace misspelt governor lemmas by the known lemma ``mapping`` gives.
-
-    :param mapping: ``(lemma, pos) -> known lemma`` (same POS, from
-        :func:`hingeword.patterns.typo_map`) or ``-> (lemma, pos)`` (from
-        :func:`hingeword.patterns.participle_map`).
-    The surface form stays as written; ``original_governor`` keeps the old lemma.
-    """
-    out = []
-    for a in attachments:
-        new = mapping.get((a.governor, a.governor_pos))
-        if isinstance(new, tuple):
-            out.append(replace(a, governor=new[0], governor_pos=new[1], original_governor=a.governor))
-        elif new:
-            out.append(replace(a, governor=new, original_governor=a.governor))
-        else:
-            out.append(a)
     return out

@@ -17,12 +17,13 @@ import logging
 import shutil
 import sqlite3
 from collections.abc import Iterable, Sequence
-from dataclasses import asdict, dataclass, fields
+from dataclasses import dataclass, fields
 from pathlib import Path
 
 from .errors import WorkspaceError
 from .extract import Attachment
 from .ingest import Essay, Skipped
+from .record import Decision, PatternRecord
 
 log = logging.getLogger("hingeword")
 
@@ -139,12 +140,63 @@ def schema_version() -> int:
     return len(MIGRATIONS)
 
 
+@dataclass(frozen=True)
+class RunInfo:
+    """One stored run: what was scanned, with what, and the settings used."""
+
+    id: int
+    class_name: str
+    term: str
+    term_start: str
+    created: str
+    tool_version: str
+    model: str
+    model_version: str
+    extractor_version: str
+    source: str
+    essays_read: int
+    essays_skipped: int
+    words: int
+    settings: dict
+    reference: dict
+
+    @classmethod
+    def from_row(cls, row: sqlite3.Row) -> RunInfo:
+        return cls(id=row["id"], class_name=row["class"], term=row["term"],
+                   term_start=row["term_start"] or row["created"][:10], created=row["created"],
+                   tool_version=row["tool_version"], model=row["model"], model_version=row["model_version"],
+                   extractor_version=row["extractor_version"], source=row["source"], essays_read=row["essays_read"],
+                   essays_skipped=row["essays_skipped"], words=row["words"], settings=_json_dict(row["settings"]),
+                   reference=_json_dict(row["reference"]))
+
+
+@dataclass(frozen=True)
+class Note:
+    """A remark stored with a run (duplicates, spelling groups, rule problems…)."""
+
+    kind: str
+    message: str
+
+
+def _json_dict(text) -> dict:
+    try:
+        value = json.loads(text or "{}")
+    except (TypeError, ValueError):
+        return {}
+    return value if isinstance(value, dict) else {}
+
+
 def _now() -> str:
     return _dt.datetime.now(_dt.timezone.utc).replace(microsecond=0).isoformat()
 
 
 class Workspace:
-    """A workspace folder: ``hingeword.sqlite``, ``cache/`` (parses), ``references/``, reports."""
+    """A workspace folder: ``hingeword.sqlite``, ``cache/`` (parses), ``references/``, reports.
+
+    It stores runs and returns them as records (:class:`RunInfo`, :class:`~hingeword.ingest.Essay`,
+    :class:`~hingeword.extract.Attachment`, :class:`~hingeword.record.PatternRecord`); what
+    they mean across terms is the trends stage's business.
+    """
 
     def __init__(self, root: str | Path, *, create: bool = True):
         self.root = Path(root)
@@ -210,6 +262,19 @@ class Workspace:
             self.conn.execute("ROLLBACK")
             raise
 
+    def _tx(self):
+        ws = self
+
+        class _Tx:
+            def __enter__(self_):
+                ws.conn.execute("BEGIN IMMEDIATE")
+
+            def __exit__(self_, exc_type, *rest):
+                ws.conn.execute("ROLLBACK" if exc_type else "COMMIT")
+                return False
+
+        return _Tx()
+
     # ------------------------------------------------------------------ runs
     def replace_run(
         self,
@@ -221,7 +286,7 @@ class Workspace:
         skipped: Sequence[Skipped],
         notes: Sequence[tuple[str, str]],
         attachments: Iterable[Attachment],
-        pattern_figures: Sequence[dict] = (),
+        records: Sequence[PatternRecord] = (),
     ) -> int:
         """Replace the run of ``class_name``/``term`` atomically; return the new run id.
 
@@ -230,8 +295,7 @@ class Workspace:
         if not essays:
             raise WorkspaceError(f"refusing to store a run of {class_name} / {term} with no essays; the earlier run is kept")
         c = self.conn
-        c.execute("BEGIN IMMEDIATE")
-        try:
+        with self._tx():
             c.execute("DELETE FROM runs WHERE class = ? AND term = ?", (class_name, term))
             cols = ("class", "term", "created", "tool_version", "model", "model_version", "extractor_version",
                     "source", "essays_read", "essays_skipped", "words", "settings", "reference", "term_start")
@@ -257,66 +321,98 @@ class Workspace:
                 f"INSERT INTO attachments (run_id, {', '.join(names)}) VALUES ({', '.join('?' * (len(names) + 1))})",
                 [(run_id, *(getattr(a, n) for n in names)) for a in attachments],
             )
-            self._insert_figures(run_id, pattern_figures)
-            c.execute("COMMIT")
-        except BaseException:
-            c.execute("ROLLBACK")
-            raise
+            self._insert_records(run_id, records)
         return run_id
 
-    def _insert_figures(self, run_id: int, figures: Sequence[dict]) -> None:
+    def _insert_records(self, run_id: int, records: Sequence[PatternRecord]) -> None:
         self.conn.executemany(
             "INSERT INTO pattern_stats VALUES (?, ?, ?, ?, ?)",
-            [(run_id, f["governor"], f["governor_pos"], f["preposition"], json.dumps(f, sort_keys=True, default=_json_default))
-             for f in figures],
+            [(run_id, *r.key, json.dumps(_stored_row(r), sort_keys=True)) for r in records],
         )
 
-    def replace_figures(self, run_id: int, figures: Sequence[dict]) -> None:
-        c = self.conn
-        c.execute("BEGIN IMMEDIATE")
-        try:
-            c.execute("DELETE FROM pattern_stats WHERE run_id = ?", (run_id,))
-            self._insert_figures(run_id, figures)
-            c.execute("COMMIT")
-        except BaseException:
-            c.execute("ROLLBACK")
-            raise
-
-    def run(self, class_name: str, term: str) -> sqlite3.Row:
+    def run(self, class_name: str, term: str) -> RunInfo:
         row = self.conn.execute("SELECT * FROM runs WHERE class = ? AND term = ?", (class_name, term)).fetchone()
         if row is None:
             known = self.conn.execute("SELECT class, term FROM runs ORDER BY class, term").fetchall()
             listing = ", ".join(f"{r['class']}/{r['term']}" for r in known) or "none yet"
             raise WorkspaceError(f"no scan of class '{class_name}', term '{term}' in {self.root} (known: {listing})")
-        return row
+        return RunInfo.from_row(row)
 
-    def runs(self, class_name: str | None = None) -> list[sqlite3.Row]:
+    def find_run(self, class_name: str, term: str) -> RunInfo | None:
+        """The run of a class and term, or ``None`` when there is none yet."""
+        row = self.conn.execute("SELECT * FROM runs WHERE class = ? AND term = ?", (class_name, term)).fetchone()
+        return RunInfo.from_row(row) if row is not None else None
+
+    def runs(self, class_name: str | None = None) -> list[RunInfo]:
         if class_name is None:
-            return self.conn.execute("SELECT * FROM runs ORDER BY class, created").fetchall()
-        return self.conn.execute("SELECT * FROM runs WHERE class = ? ORDER BY created", (class_name,)).fetchall()
+            rows = self.conn.execute("SELECT * FROM runs ORDER BY class, created").fetchall()
+        else:
+            rows = self.conn.execute("SELECT * FROM runs WHERE class = ? ORDER BY created", (class_name,)).fetchall()
+        return [RunInfo.from_row(r) for r in rows]
 
-    def essays(self, run_id: int) -> list[sqlite3.Row]:
-        return self.conn.execute("SELECT * FROM essays WHERE run_id = ? ORDER BY essay_id", (run_id,)).fetchall()
+    def runs_in_order(self, class_name: str) -> list[RunInfo]:
+        """The runs of a class and of every class linked to it, in term order.
 
-    def skipped(self, run_id: int) -> list[sqlite3.Row]:
-        return self.conn.execute("SELECT * FROM skipped WHERE run_id = ? ORDER BY source", (run_id,)).fetchall()
-
-    def notes(self, run_id: int) -> list[sqlite3.Row]:
-        return self.conn.execute("SELECT * FROM notes WHERE run_id = ? ORDER BY rowid", (run_id,)).fetchall()
-
-    def attachments(self, run_id: int) -> list[Attachment]:
-        names = [f.name for f in fields(Attachment)]
+        Order key: the term's start date (``--term-start``), then creation time.
+        """
+        group = sorted(self.class_group(class_name))
+        marks = ", ".join("?" * len(group))
         rows = self.conn.execute(
-            f"SELECT {', '.join(names)} FROM attachments WHERE run_id = ? ORDER BY essay_id, gov_start, prep_start, preposition",
-            (run_id,),
+            f"SELECT * FROM runs WHERE class IN ({marks}) ORDER BY term_start, created, term", group
+        ).fetchall()
+        return [RunInfo.from_row(r) for r in rows]
+
+    def previous_run(self, class_name: str, term: str) -> RunInfo | None:
+        """The run before this one in the class's term order (linked classes included)."""
+        run = self.run(class_name, term)
+        order = [r.id for r in self.runs_in_order(class_name)]
+        if run.id not in order or order.index(run.id) == 0:
+            return None
+        prev = order[order.index(run.id) - 1]
+        return next(r for r in self.runs_in_order(class_name) if r.id == prev)
+
+    def essays(self, run_id: int) -> list[Essay]:
+        rows = self.conn.execute("SELECT * FROM essays WHERE run_id = ? ORDER BY essay_id", (run_id,)).fetchall()
+        return [Essay(essay_id=r["essay_id"], writer=r["writer"], text=r["text"], sha256=r["sha256"],
+                      source=r["source"], encoding=r["encoding"], l1=r["l1"], level=r["level"], task=r["task"],
+                      meta=tuple(sorted(_json_dict(r["meta"]).items()))) for r in rows]
+
+    def writers(self, run_id: int) -> list[str]:
+        """The run's writer ids, sorted."""
+        return [r[0] for r in self.conn.execute(
+            "SELECT DISTINCT writer FROM essays WHERE run_id = ? ORDER BY writer", (run_id,))]
+
+    def skipped(self, run_id: int) -> list[Skipped]:
+        return [Skipped(source=r["source"], reason=r["reason"]) for r in self.conn.execute(
+            "SELECT * FROM skipped WHERE run_id = ? ORDER BY source", (run_id,))]
+
+    def notes(self, run_id: int) -> list[Note]:
+        return [Note(kind=r["kind"], message=r["message"]) for r in self.conn.execute(
+            "SELECT * FROM notes WHERE run_id = ? ORDER BY rowid", (run_id,))]
+
+    def attachments(self, run_id: int, key: tuple[str, str | None, str] | None = None) -> list[Attachment]:
+        """A run's attachments in essay order; ``key`` = (governor, POS or None, preposition) selects one pattern."""
+        names = [f.name for f in fields(Attachment)]
+        where, args = "run_id = ?", [run_id]
+        if key is not None:
+            governor, pos, prep = key
+            where += " AND governor = ? AND preposition = ?"
+            args += [governor, prep]
+            if pos is not None:
+                where += " AND governor_pos = ?"
+                args.append(pos)
+        rows = self.conn.execute(
+            f"SELECT {', '.join(names)} FROM attachments WHERE {where} "
+            "ORDER BY essay_id, gov_start, prep_start, preposition", args,
         ).fetchall()
         return [Attachment(**dict(zip(names, r))) for r in rows]
 
-    def figures(self, run_id: int) -> list[dict]:
+    def records(self, run_id: int) -> list[PatternRecord]:
+        """The run's scored patterns as stored (without decisions or comparison)."""
         rows = self.conn.execute(
             "SELECT figures FROM pattern_stats WHERE run_id = ? ORDER BY governor, governor_pos, preposition", (run_id,)
         ).fetchall()
-        return [json.loads(r[0]) for r in rows]
+        return [PatternRecord.from_row(json.loads(r[0])) for r in rows]
 
     def writer_codes(self, class_name: str) -> dict[str, str]:
         """Stable pseudonyms for a class: "S01", "S02", … in order of first appearance.
@@ -326,23 +422,10 @@ class Workspace:
         """
         codes: dict[str, str] = {}
         for run in self.runs_in_order(class_name):
-            for (writer,) in self.conn.execute(
-                "SELECT DISTINCT writer FROM essays WHERE run_id = ? ORDER BY writer", (run["id"],)
-            ):
+            for writer in self.writers(run.id):
                 if writer not in codes:
                     codes[writer] = f"S{len(codes) + 1:02d}"
         return codes
-
-    def runs_in_order(self, class_name: str) -> list[sqlite3.Row]:
-        """The runs of a class and of every class linked to it, in term order.
-
-        Order key: the term's start date (``--term-start``), then creation time.
-        """
-        group = sorted(self.class_group(class_name))
-        marks = ", ".join("?" * len(group))
-        return self.conn.execute(
-            f"SELECT * FROM runs WHERE class IN ({marks}) ORDER BY term_start, created, term", group
-        ).fetchall()
 
     # ----------------------------------------------------------- class links
     def link_classes(self, old: str, new: str) -> None:
@@ -364,20 +447,13 @@ class Workspace:
                     changed = True
         return group
 
+    def require_class(self, class_name: str) -> None:
+        """Raise a clear error when no run of the class (or of a class linked to it) exists."""
+        if not self.runs_in_order(class_name):
+            known = sorted({r.class_name for r in self.runs()})
+            raise WorkspaceError(f"no scans of class '{class_name}' in {self.root} (known: {', '.join(known) or 'none yet'})")
+
     # -------------------------------------------------------------- decisions
-    def _tx(self):
-        ws = self
-
-        class _Tx:
-            def __enter__(self_):
-                ws.conn.execute("BEGIN IMMEDIATE")
-
-            def __exit__(self_, exc_type, *rest):
-                ws.conn.execute("ROLLBACK" if exc_type else "COMMIT")
-                return False
-
-        return _Tx()
-
     def dismiss(self, governor: str, preposition: str, *, class_name: str | None, reason: str, on: str | None = None) -> None:
         """Dismiss a pattern for one class (or all classes: ``class_name=None``); persists across terms."""
         scope = class_name or ALL_CLASSES
@@ -403,92 +479,12 @@ class Workspace:
                                       (scope, governor.lower(), preposition.lower(), day))
         return bool(removed)
 
-    def require_class(self, class_name: str) -> None:
-        """Raise a clear error when no run of the class (or of a class linked to it) exists."""
-        if not self.runs_in_order(class_name):
-            known = sorted({r["class"] for r in self.runs()})
-            raise WorkspaceError(f"no scans of class '{class_name}' in {self.root} (known: {', '.join(known) or 'none yet'})")
-
-    def decisions_for(self, class_name: str) -> dict[tuple[str, str], sqlite3.Row]:
+    def decisions_for(self, class_name: str) -> dict[tuple[str, str], Decision]:
         """Active dismissals that apply to a class (its own, its group's, and all-class ones)."""
         scopes = sorted(self.class_group(class_name)) + [ALL_CLASSES]
         marks = ", ".join("?" * len(scopes))
         rows = self.conn.execute(f"SELECT * FROM decisions WHERE scope IN ({marks}) ORDER BY decided_on", scopes)
-        return {(r["governor"], r["preposition"]): r for r in rows}
-
-    # -------------------------------------------------------- figures in context
-    def figures_in_context(self, class_name: str, term: str) -> list[dict]:
-        """A run's figures with the teacher's decisions and a "since last term" line.
-
-        Adds ``dismissed``, ``dismissed_reason``, ``dismissed_on``, ``since_last_term``,
-        ``rate`` (instances per 10,000 words) and ``previous_rate``.
-        """
-        run = self.run(class_name, term)
-        figures = self.figures(run["id"])
-        decisions = self.decisions_for(class_name)
-        order = [r["id"] for r in self.runs_in_order(class_name)]
-        prev_id = order[order.index(run["id"]) - 1] if run["id"] in order and order.index(run["id"]) > 0 else None
-        prev = {}
-        prev_words = 0
-        if prev_id is not None:
-            prev_run = self.conn.execute("SELECT * FROM runs WHERE id = ?", (prev_id,)).fetchone()
-            prev_words = prev_run["words"]
-            prev = {(f["governor"], f["governor_pos"], f["preposition"]): f for f in self.figures(prev_id)}
-        for f in figures:
-            d = decisions.get((f["governor"], f["preposition"]))
-            f["dismissed"] = d is not None
-            f["dismissed_reason"] = d["reason"] if d else ""
-            f["dismissed_on"] = d["decided_on"] if d else ""
-            f["rate"] = per_10k(f["learner_count"], run["words"])
-            p = prev.get((f["governor"], f["governor_pos"], f["preposition"]))
-            f["previous_rate"] = per_10k(p["learner_count"], prev_words) if p else (0.0 if prev_id else None)
-            f["since_last_term"] = since_line(f, p, prev_id is not None, f["previous_rate"])
-        return figures
-
-    def writer_progress(self, class_name: str, term: str, keys: Iterable[tuple[str, str, str]],
-                        same_writer: dict[str, str] | None = None) -> dict[str, list[dict]]:
-        """For each writer of this run: their counts of ``keys`` last term and this term.
-
-        :param same_writer: optional map writer id -> writer id of the same person in
-            earlier terms (from fuzzy matching); exact ids match without it.
-        """
-        run = self.run(class_name, term)
-        order = [r["id"] for r in self.runs_in_order(class_name)]
-        idx = order.index(run["id"])
-        if idx == 0:
-            return {}
-        prev_id = order[idx - 1]
-        keys = list(keys)
-
-        def counts(run_id: int) -> dict[str, dict]:
-            out: dict[str, dict] = {}
-            for a in self.attachments(run_id):
-                if a.key in keys:
-                    out.setdefault(a.writer, {}).setdefault(a.key, 0)
-                    out[a.writer][a.key] += 1
-            return out
-
-        now, before = counts(run["id"]), counts(prev_id)
-        prev_writers = {r["writer"] for r in self.conn.execute("SELECT writer FROM essays WHERE run_id = ?", (prev_id,))}
-        result: dict[str, list[dict]] = {}
-        for (writer,) in self.conn.execute("SELECT DISTINCT writer FROM essays WHERE run_id = ? ORDER BY writer", (run["id"],)):
-            earlier = (same_writer or {}).get(writer, writer)
-            if earlier not in prev_writers:
-                continue
-            rows = []
-            for k in keys:
-                a, b = before.get(earlier, {}).get(k, 0), now.get(writer, {}).get(k, 0)
-                if a or b:
-                    rows.append({"governor": k[0], "governor_pos": k[1], "preposition": k[2], "last_term": a, "this_term": b})
-            result[writer] = rows
-        return result
-
-    def count_rows(self) -> dict[str, int]:
-        tables = [r[0] for r in self.conn.execute("SELECT name FROM sqlite_master WHERE type='table' ORDER BY name")]
-        return {t: self.conn.execute(f"SELECT COUNT(*) FROM {t}").fetchone()[0] for t in tables}
-
-    def integrity(self) -> str:
-        return self.conn.execute("PRAGMA integrity_check").fetchone()[0]
+        return {(r["governor"], r["preposition"]): Decision(reason=r["reason"], decided_on=r["decided_on"]) for r in rows}
 
 
 def per_10k(count: int, words: int) -> float:
@@ -496,24 +492,16 @@ def per_10k(count: int, words: int) -> float:
     return round(10_000 * count / words, 2) if words else 0.0
 
 
-def since_line(f: dict, prev: dict | None, has_previous: bool, prev_rate: float | None) -> str:
-    """One short line comparing a pattern with the previous term of the class."""
-    if not has_previous:
-        return "first term on record"
-    if prev is None or not prev.get("learner_count"):
-        return "new this term" if f.get("learner_count") else "not seen this term or last"
-    if prev.get("flagged"):
-        return f"also flagged last term ({prev_rate:.1f} → {f['rate']:.1f} per 10,000 words)"
-    return f"seen last term but not flagged ({prev_rate:.1f} → {f['rate']:.1f} per 10,000 words)"
+_VIEW_ONLY = ("dismissed", "dismissed_reason", "dismissed_on", "since_last_term", "rate", "previous_rate")
+
+
+def _stored_row(r: PatternRecord) -> dict:
+    """What a run stores of a record: everything but the decision and the comparison, made when read."""
+    row = r.with_(decision=None, comparison=None).to_row()
+    for k in _VIEW_ONLY:
+        row.pop(k)
+    return row
 
 
 def _statements(sql: str) -> list[str]:
     return [s.strip() for s in sql.split(";") if s.strip()]
-
-
-def _json_default(o):
-    if hasattr(o, "item"):
-        return o.item()
-    if hasattr(o, "__dataclass_fields__"):
-        return asdict(o)
-    raise TypeError(f"not JSON serialisable: {type(o).__name__}")

@@ -29,7 +29,7 @@ Dunning 1993 (G2); Manning & Schuetze 1999, ch. 5 (t, chi2, MI check values);
 Evert 2008, "Corpora and collocations" (O/E, z, Poisson-Stirling, the set);
 Rychly 2008, RASLAN pp. 6-9 (logDice); Hardie 2014, "Log Ratio - an informal
 introduction" (Log Ratio); Gries 2008, IJCL 13(4) and Lijffijt & Gries 2012 (DP).
-Check values (METHODS.md section 5 of the design notes) are pinned in ``tests/test_measures.py``.
+Check values (docs/methods.md §5) are pinned in ``tests/test_measures.py``.
 """
 
 from __future__ import annotations
@@ -203,9 +203,9 @@ MEASURES = {
 """Association measures by short name, each ``f(n_ii, n_ix, n_xi, n_xx)``."""
 
 EFFECT_SIZES = ("oe", "mi", "logdice")
-"""Measures a collocation ratio may use: t, z, G2 and chi2 grow with N (METHODS section 2)."""
+"""Measures a collocation ratio may use: t, z, G2 and chi2 grow with N (docs/methods.md §2)."""
 
-# --- One pair, learner vs reference (METHODS section 3) ---------------------------
+# --- One pair, learner vs reference (docs/methods.md §3) ---------------------------
 #   learner:   a  of n1 (base = attachments or tokens of the governor)
 #   reference: c  of n2
 
@@ -272,7 +272,7 @@ def signed(stat, a, n1, c, n2):
     return _out(np.where(a * n2 < c * n1, -1.0, 1.0) * np.asarray(stat, dtype=float))
 
 
-# --- Collocation ratio (METHODS section 2) -----------------------------------------
+# --- Collocation ratio (docs/methods.md §2) -----------------------------------------
 # learner/reference are tables (n_ii, n_ix, n_xi, n_xx) of numbers or arrays.
 
 
@@ -282,7 +282,7 @@ def log2_collocation_ratio(learner: Sequence, reference: Sequence, measure: str 
     ``"oe"`` and ``"mi"``: CR = (O/E)_L / (O/E)_R, so log2 CR = MI_L - MI_R (a ratio
     of two MI values breaks when MI_R <= 0). ``"logdice"``: CR = Dice_L / Dice_R,
     log2 CR = logDice_L - logDice_R. Zero counts follow :func:`observed_expected`
-    and :func:`log_dice`. Check (METHODS section 2): "discuss about",
+    and :func:`log_dice`. Check (docs/methods.md §2): "discuss about",
     L ``(12, 20, 400, 30000)``, R with O = 0, E = 3.6 -> 8.3399.
 
     :raises ValueError: for a measure not in :data:`EFFECT_SIZES`.
@@ -307,7 +307,7 @@ def collocation_ratio_ci(
     """Confidence interval ``(low, high)`` for log2 CR.
 
     SE(log2 CR) ~ sqrt(1 / O_L + 1 / O_R) / ln 2: O11 Poisson with the margins fixed,
-    and O/E and Dice are then O11 times a constant (derived in METHODS section 2,
+    and O/E and Dice are then O11 times a constant (derived in docs/methods.md §2,
     not from a source). A zero O counts as 0.5. Check: "discuss about" -> (4.26, 12.42);
     "depend on" -> (-0.34, 0.57).
     """
@@ -319,7 +319,7 @@ def collocation_ratio_ci(
     return _out(centre - half), _out(centre + half)
 
 
-# --- Dispersion across writers (METHODS section 4) ----------------------------------
+# --- Dispersion across writers (docs/methods.md §4) ----------------------------------
 
 
 def _dp(v, s) -> tuple[float | None, float]:

@@ -10,8 +10,8 @@ import hashlib
 import importlib.util
 import logging
 import os
-from collections.abc import Callable, Iterable, Iterator, Sequence
-from dataclasses import dataclass, field
+from collections.abc import Callable, Iterator, Sequence
+from dataclasses import dataclass
 from pathlib import Path
 
 from .errors import ModelError
@@ -50,7 +50,6 @@ class ParseStats:
     parsed: int = 0
     from_cache: int = 0
     words: int = 0
-    seen: list[str] = field(default_factory=list)
 
 
 def default_processes() -> int:
@@ -177,8 +176,3 @@ def parse_texts(
         if progress:
             progress(1)
         yield doc
-
-
-def iter_parse(texts: Iterable[str], nlp, *, processes: int = 1, batch_size: int = 64) -> Iterator:
-    """Parse a stream of texts without caching (reference building)."""
-    yield from nlp.pipe(texts, batch_size=batch_size, n_process=max(1, processes))

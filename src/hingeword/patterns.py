@@ -2,7 +2,7 @@
 
 A pattern is (governor lemma, governor POS, preposition). ``learner_governor_count``
 is the number of attachments of that governor to any slot (all prepositions, the
-``-`` direct-object slot and particles): the row total R1 of METHODS.md §1 and the
+``-`` direct-object slot and particles): the row total R1 of docs/methods.md §1 and the
 base of the learner-vs-reference comparison.
 """
 
@@ -10,11 +10,15 @@ from __future__ import annotations
 
 from collections import Counter, defaultdict
 from collections.abc import Iterable, Mapping
+from dataclasses import replace
 
 import pandas as pd
 from rapidfuzz import fuzz, process
 
 from .extract import Attachment
+
+#: ``(lemma, POS) -> (known lemma, POS)``: how misspelt governors were grouped.
+GovernorMap = dict[tuple[str, str], tuple[str, str]]
 
 COLUMNS = ["governor", "governor_pos", "preposition", "learner_count", "learner_writers", "learner_governor_count"]
 
@@ -30,11 +34,6 @@ KNOWN_ZIPF = 3.0
 TYPO_RATIO = 85.0
 #: Known lemmas need this many tokens in the reference to be a grouping target.
 MIN_TARGET_TOKENS = 5
-
-
-def key_label(governor: str, preposition: str) -> str:
-    """A pattern as people read it: "discuss + about", "listen + object" for the ``-`` slot."""
-    return f"{governor} + object" if preposition == "-" else f"{governor} + {preposition}"
 
 
 def count_patterns(attachments: Iterable[Attachment]) -> pd.DataFrame:
@@ -59,12 +58,12 @@ def typo_map(
     *,
     ratio: float = TYPO_RATIO,
     known_zipf: float = KNOWN_ZIPF,
-) -> dict[tuple[str, str], str]:
+) -> GovernorMap:
     """Map misspelt governor lemmas to a frequent known lemma of the same POS.
 
     :param lemmas: the class's (lemma, POS) governors.
     :param lexicon: (lemma, POS) -> tokens in the reference.
-    :returns: ``{(misspelt, pos): known}`` for the lemmas that were grouped.
+    :returns: ``{(misspelt, pos): (known, pos)}`` for the lemmas that were grouped.
     """
     from wordfreq import zipf_frequency
 
@@ -74,7 +73,7 @@ def typo_map(
             targets[pos].append(lemma)
     for pos in targets:
         targets[pos].sort()
-    out: dict[tuple[str, str], str] = {}
+    out: GovernorMap = {}
     for lemma, pos in sorted(set(lemmas)):
         if not lemma.isalpha() or len(lemma) < 4 or lexicon.get((lemma, pos), 0) > 0:
             continue
@@ -82,7 +81,7 @@ def typo_map(
             continue
         best = process.extractOne(lemma, targets.get(pos, []), scorer=fuzz.ratio, score_cutoff=ratio)
         if best is not None:
-            out[(lemma, pos)] = best[0]
+            out[(lemma, pos)] = (best[0], pos)
     return out
 
 
@@ -92,7 +91,7 @@ def participle_map(
     *,
     ratio: float = TYPO_RATIO,
     known_zipf: float = KNOWN_ZIPF,
-) -> dict[tuple[str, str], tuple[str, str]]:
+) -> GovernorMap:
     """Misspelt participial adjectives the tagger reads as verbs.
 
     "I am intrested in art": the small pipeline tags "intrested" as a VERB with the
@@ -107,7 +106,7 @@ def participle_map(
     from wordfreq import zipf_frequency
 
     adjectives = sorted(lem for (lem, pos), n in lexicon.items() if pos == "ADJ" and n >= MIN_TARGET_TOKENS and lem.isalpha())
-    out: dict[tuple[str, str], tuple[str, str]] = {}
+    out: GovernorMap = {}
     for lemma, pos, surface in sorted(set(items)):
         form = surface.lower()
         if pos != "VERB" or not form.endswith("ed") or not form.isalpha() or lexicon.get((lemma, pos), 0) > 0:
@@ -118,3 +117,27 @@ def participle_map(
         if best is not None:
             out[(lemma, pos)] = (best[0], "ADJ")
     return out
+
+
+def regroup(attachments: Iterable[Attachment], mapping: Mapping[tuple[str, str], tuple[str, str]]) -> list[Attachment]:
+    """Replace misspelt governors by the known (lemma, POS) ``mapping`` gives.
+
+    The surface form stays as written; ``original_governor`` keeps the old lemma.
+    """
+    out = []
+    for a in attachments:
+        new = mapping.get((a.governor, a.governor_pos))
+        out.append(replace(a, governor=new[0], governor_pos=new[1], original_governor=a.governor) if new else a)
+    return out
+
+
+def group_governors(attachments: list[Attachment], lexicon: Mapping[tuple[str, str], int]) -> tuple[list[Attachment], GovernorMap]:
+    """Group misspelt governors (:func:`typo_map`, then :func:`participle_map`) under known lemmas.
+
+    :returns: the regrouped attachments and the grouping applied (for the run's notes).
+    """
+    groups = typo_map({(a.governor, a.governor_pos) for a in attachments}, lexicon)
+    unmatched = {(a.governor, a.governor_pos, a.governor_text) for a in attachments
+                 if (a.governor, a.governor_pos) not in groups}
+    groups.update(participle_map(unmatched, lexicon))
+    return regroup(attachments, groups), groups

@@ -8,18 +8,19 @@ from __future__ import annotations
 
 import datetime as _dt
 import logging
-from collections import Counter, defaultdict
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from . import EXTRACTOR_VERSION, __version__
-from .extract import extract_doc, regroup_typos
 from .errors import IngestError
+from .extract import extract_doc
 from .history import Workspace
 from .ingest import IngestResult, read_essays
 from .parse import ModelInfo, ParseStats, default_processes, load_model, parse_texts
-from .patterns import count_patterns, participle_map, typo_map
+from .patterns import GovernorMap, count_patterns, group_governors
+from .record import PatternRecord
+from .score import Thresholds
 
 log = logging.getLogger("hingeword")
 
@@ -33,11 +34,15 @@ class ScanResult:
     ingest: IngestResult
     parse_stats: ParseStats
     attachments: int
-    patterns: object  # pandas DataFrame of scored patterns
-    figures: list = field(default_factory=list)  # scored rows with causes, as stored
-    typo_groups: dict = field(default_factory=dict)
+    records: list[PatternRecord] = field(default_factory=list)  # ranked, with advice, as stored
+    typo_groups: GovernorMap = field(default_factory=dict)
     reference_name: str = ""
+    thresholds: Thresholds = field(default_factory=Thresholds)
     settings: dict = field(default_factory=dict)
+
+    @property
+    def flagged(self) -> list[PatternRecord]:
+        return [r for r in self.records if r.flagged]
 
 
 def ingest_notes(result: IngestResult) -> list[tuple[str, str]]:
@@ -60,7 +65,7 @@ def scan(
     model: str | None = None,
     processes: int | None = None,
     references: Sequence[str] = (),
-    settings: dict | None = None,
+    thresholds: Thresholds | None = None,
     term_start: str | None = None,
     l1: str | None = None,
     rules_dirs: Sequence[str | Path] = (),
@@ -69,14 +74,15 @@ def scan(
 ) -> ScanResult:
     """Scan one class's essays for one term and store the run in the workspace.
 
-    :param settings: scoring thresholds (see :data:`hingeword.score.DEFAULTS`).
+    :param thresholds: the flag decision's thresholds (default :class:`~hingeword.score.Thresholds`).
     :param progress: called as ``progress(done, total)`` while parsing.
     """
     from . import reference as ref_mod
-    from .causes import categorise_figures
+    from .causes import categorise, l1_tallies
     from .rules import load_rules
-    from .score import score_run
+    from .score import score_patterns
 
+    thresholds = thresholds or Thresholds()
     ingest = read_essays(folder, manifest=manifest, encoding=encoding)
     if not ingest.essays:
         reasons = "; ".join(f"{s.source}: {s.reason}" for s in ingest.skipped[:3])
@@ -106,23 +112,14 @@ def scan(
                            stats=stats, progress=tick)
         for essay, doc in zip(ingest.essays, docs):
             attachments.extend(extract_doc(doc, essay.essay_id, essay.writer))
-        groups: dict = typo_map({(a.governor, a.governor_pos) for a in attachments}, reference.lemmas)
-        unmatched = {(a.governor, a.governor_pos, a.governor_text) for a in attachments
-                     if (a.governor, a.governor_pos) not in groups}
-        groups.update(participle_map(unmatched, reference.lemmas))
-        attachments = regroup_typos(attachments, groups)
-        counts = count_patterns(attachments)
-        scored, used = score_run(counts, attachments, reference, settings or {})
+        attachments, groups = group_governors(attachments, reference.lemmas)
+        records = score_patterns(count_patterns(attachments), attachments, reference, thresholds)
         l1_of = {e.writer: (e.l1 or l1 or "").strip().lower() for e in ingest.essays}
-        l1_by_pattern: dict = defaultdict(Counter)
-        for a in attachments:
-            if l1_of.get(a.writer):
-                l1_by_pattern[a.key][l1_of[a.writer]] += 1
-        figures = categorise_figures(scored.to_dict("records"), reference, rules, l1_by_pattern)
+        records = categorise(records, reference, rules, l1_tallies(attachments, l1_of))
         if term_start is None:  # a re-scan keeps the term's recorded start, so term order holds
-            old = ws.conn.execute("SELECT term_start FROM runs WHERE class = ? AND term = ?", (class_name, term)).fetchone()
-            term_start = old[0] if old and old[0] else _dt.date.today().isoformat()
-        run_settings = {**used, "term_start": term_start, "l1": l1}
+            old = ws.find_run(class_name, term)
+            term_start = old.term_start if old is not None else _dt.date.today().isoformat()
+        run_settings = {**thresholds.as_dict(), "term_start": term_start, "l1": l1}
         run_meta = {
             "tool_version": __version__,
             "model": info.name,
@@ -135,11 +132,12 @@ def scan(
         }
         notes = ingest_notes(ingest)
         notes += [("rules", str(p)) for p in rules.problems]
-        notes += [("typo", f"'{k[0]}' ({k[1]}) grouped under '{v if isinstance(v, str) else v[0]}'"
-                   + ("" if isinstance(v, str) else f" ({v[1]})")) for k, v in sorted(groups.items())]
-        ref_model = str(reference.manifest.get("model", ""))
-        if ref_model and ref_model != info.name and not ref_model.startswith("gold") and "," not in ref_model:
-            notes.append(("model", f"essays parsed with {info.name}, reference with {ref_model}: counts may differ by parser"))
+        notes += [("typo", f"'{k[0]}' ({k[1]}) grouped under '{v[0]}'" + ("" if v[1] == k[1] else f" ({v[1]})"))
+                  for k, v in sorted(groups.items())]
+        other = sorted(reference.parsers() - {info.name})
+        if other:
+            notes.append(("model", f"essays parsed with {info.name}, reference with {', '.join(other)}: "
+                                   "counts may differ by parser"))
         run_id = ws.replace_run(
             class_name=class_name,
             term=term,
@@ -148,12 +146,12 @@ def scan(
             skipped=ingest.skipped,
             notes=notes,
             attachments=attachments,
-            pattern_figures=figures,
+            records=records,
         )
     finally:
         ws.close()
     return ScanResult(
         run_id=run_id, class_name=class_name, term=term, model=info, ingest=ingest, parse_stats=stats,
-        attachments=len(attachments), patterns=scored, figures=figures, typo_groups=groups, reference_name=reference.name,
-        settings=run_settings,
+        attachments=len(attachments), records=records, typo_groups=groups, reference_name=reference.name,
+        thresholds=thresholds, settings=run_settings,
     )

@@ -9,7 +9,7 @@ A reference is a directory holding
 * ``lemmas.tsv.gz`` — ``lemma, pos, tokens``: every VERB/ADJ/NOUN token's lemma
   (the lexicon typo grouping checks against, and each governor's token count).
 
-The 2x2 totals of METHODS.md §1 follow from the pattern counts: R1 = sum of a
+The 2x2 totals of docs/methods.md §1 follow from the pattern counts: R1 = sum of a
 governor's rows, C1 = sum of a preposition's rows, N = sum of all rows.
 Gzip files are written with a zero timestamp so that building twice gives
 byte-identical artefacts.
@@ -61,6 +61,15 @@ class Reference:
     @property
     def total(self) -> int:
         return sum(self.patterns.values())
+
+    @property
+    def parts(self) -> list[dict]:
+        """The manifests of the references combined into this one (itself when not combined)."""
+        return list(self.manifest.get("combined_from") or [self.manifest])
+
+    def parsers(self) -> set[str]:
+        """Names of the spaCy pipelines that parsed the parts (gold CoNLL-U parts have none)."""
+        return {str(p.get("model")) for p in self.parts if p.get("format") != "conllu" and p.get("model")}
 
     def governor_totals(self) -> Counter:
         out: Counter = Counter()
@@ -286,6 +295,22 @@ def list_references(workspace: str | Path | None = None) -> list[tuple[Path, dic
                 except ReferenceDataError as exc:
                     out.append((d, {"name": d.name, "error": str(exc)}))
     return out
+
+
+_INFO_KEYS = ("name", "source", "licence", "limits", "words", "sentences", "documents", "attachments", "patterns",
+              "model", "model_version", "extractor_version", "build_date")
+
+
+def describe(path: str | Path) -> list[str]:
+    """What ``reference info`` prints: the manifest's facts, one per line, and the path."""
+    man = read_manifest(path)
+    lines = []
+    for key in _INFO_KEYS:
+        if key in man:
+            val = f"{man[key]:,}" if isinstance(man[key], int) else man[key]
+            lines.append(f"{key:<18} {val}")
+    lines.append(f"{'path':<18} {path}")
+    return lines
 
 
 def load_many(names: Sequence[str], workspace: str | Path | None = None) -> Reference:

@@ -14,17 +14,26 @@ Its status in term *t*:
 ``-``          not flagged yet.
 
 Dismissed patterns keep their figures but are marked, and left out of charts.
+
+This stage also compares one run with the previous term of its class
+(:func:`compare_with_previous`: a :class:`~hingeword.record.Comparison` code and two
+rates per pattern) and follows each writer's uses of the class's patterns from one
+term to the next (:func:`writer_progress`). It returns codes and numbers; the report
+stage puts them into words.
 """
 
 from __future__ import annotations
 
 import io
+from collections import Counter
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 
-from .history import Workspace, per_10k
-from .patterns import key_label
+from .history import RunInfo, Workspace, per_10k
+from .record import Comparison, Keyed, PatternRecord, Since
 
-STATUSES = ("new", "recurring", "fading", "gone", "steady", "-")
+#: Statuses of a pattern across terms (not to be confused with a run's :class:`~hingeword.record.Status`).
+TREND_STATUSES = ("new", "recurring", "fading", "gone", "steady", "-")
 
 
 @dataclass
@@ -38,20 +47,12 @@ class TermCell:
 
 
 @dataclass
-class PatternTrend:
+class PatternTrend(Keyed):
     governor: str
     governor_pos: str
     preposition: str
     cells: list[TermCell] = field(default_factory=list)
     dismissed: bool = False
-
-    @property
-    def key(self) -> tuple[str, str, str]:
-        return (self.governor, self.governor_pos, self.preposition)
-
-    @property
-    def label(self) -> str:
-        return key_label(self.governor, self.preposition)
 
     @property
     def status(self) -> str:
@@ -70,8 +71,8 @@ def compute_trends(ws: Workspace, class_name: str) -> Trends:
     """Per pattern and term: count, writers, rate per 10,000 words, flag and status."""
     ws.require_class(class_name)
     runs = ws.runs_in_order(class_name)
-    figs = [{(f["governor"], f["governor_pos"], f["preposition"]): f for f in ws.figures(r["id"])} for r in runs]
-    tracked = sorted({k for fig in figs for k, f in fig.items() if f.get("flagged")})
+    figs = [{r.key: r for r in ws.records(run.id)} for run in runs]
+    tracked = sorted({k for fig in figs for k, f in fig.items() if f.flagged})
     decisions = ws.decisions_for(class_name)
     patterns = []
     for key in tracked:
@@ -80,10 +81,10 @@ def compute_trends(ws: Workspace, class_name: str) -> Trends:
         last_flag_rate = None
         for run, fig in zip(runs, figs):
             f = fig.get(key)
-            count = int(f["learner_count"]) if f else 0
-            writers = int(f["learner_writers"]) if f else 0
-            flagged = bool(f and f.get("flagged"))
-            rate = per_10k(count, run["words"])
+            count = f.learner_count if f else 0
+            writers = f.learner_writers if f else 0
+            flagged = bool(f and f.flagged)
+            rate = per_10k(count, run.words)
             if flagged:
                 status = "recurring" if flagged_before else "new"
             elif not flagged_before:
@@ -94,14 +95,14 @@ def compute_trends(ws: Workspace, class_name: str) -> Trends:
                 status = "fading"
             else:
                 status = "steady"
-            pt.cells.append(TermCell(run["term"], count, writers, rate, flagged, status))
+            pt.cells.append(TermCell(run.term, count, writers, rate, flagged, status))
             if flagged:
                 flagged_before, last_flag_rate = True, rate
         patterns.append(pt)
-    order = {s: i for i, s in enumerate(STATUSES)}
+    order = {s: i for i, s in enumerate(TREND_STATUSES)}
     patterns.sort(key=lambda p: (order[p.status], -(p.cells[-1].rate if p.cells else 0), p.key))
-    terms = [{"class": r["class"], "term": r["term"], "term_start": r["term_start"], "words": r["words"],
-              "essays": r["essays_read"]} for r in runs]
+    terms = [{"class": r.class_name, "term": r.term, "term_start": r.term_start, "words": r.words,
+              "essays": r.essays_read} for r in runs]
     return Trends(class_name, sorted(ws.class_group(class_name)), terms, patterns)
 
 
@@ -217,11 +218,72 @@ def match_writers(previous: list[str], current: list[str], threshold: float = MA
 
 def writer_matches(ws: Workspace, class_name: str, term: str, threshold: float = MATCH_THRESHOLD) -> list[tuple[str, str, float]]:
     """Fuzzy matches between this term's writer ids and the previous term's."""
-    runs = ws.runs_in_order(class_name)
-    run = ws.run(class_name, term)
-    ids = [r["id"] for r in runs]
-    i = ids.index(run["id"]) if run["id"] in ids else 0
-    if i == 0:
+    previous = ws.previous_run(class_name, term)
+    if previous is None:
         return []
-    writers = lambda rid: [r[0] for r in ws.conn.execute("SELECT DISTINCT writer FROM essays WHERE run_id = ? ORDER BY writer", (rid,))]
-    return match_writers(writers(ids[i - 1]), writers(run["id"]), threshold)
+    return match_writers(ws.writers(previous.id), ws.writers(ws.run(class_name, term).id), threshold)
+
+
+# ------------------------------------------------------- one run against the last
+
+
+def compare_with_previous(records: Sequence[PatternRecord], run: RunInfo, previous: RunInfo | None,
+                          previous_records: Sequence[PatternRecord] = ()) -> dict[tuple, Comparison]:
+    """Per pattern key: how it stands against the previous term (a code and two rates)."""
+    prev = {r.key: r for r in previous_records}
+    out = {}
+    for r in records:
+        rate = per_10k(r.learner_count, run.words)
+        if previous is None:
+            out[r.key] = Comparison(Since.FIRST_TERM, rate)
+            continue
+        p = prev.get(r.key)
+        prev_rate = per_10k(p.learner_count, previous.words) if p else 0.0
+        if p is None or not p.learner_count:
+            since = Since.NEW if r.learner_count else Since.NOT_SEEN
+        elif p.flagged:
+            since = Since.ALSO_FLAGGED
+        else:
+            since = Since.SEEN_NOT_FLAGGED
+        out[r.key] = Comparison(since, rate, prev_rate)
+    return out
+
+
+@dataclass(frozen=True)
+class ProgressRow(Keyed):
+    """One writer's uses of one pattern last term and this term."""
+
+    governor: str
+    governor_pos: str
+    preposition: str
+    last_term: int
+    this_term: int
+
+
+def writer_progress(ws: Workspace, class_name: str, term: str, keys: Iterable[tuple[str, str, str]],
+                    same_writer: Mapping[str, str] | None = None) -> dict[str, tuple[ProgressRow, ...]]:
+    """For each writer of this run who also wrote last term: their counts of ``keys`` then and now.
+
+    :param same_writer: optional map writer id -> writer id of the same person last term
+        (from :func:`writer_matches`); exact ids match without it.
+    """
+    previous = ws.previous_run(class_name, term)
+    if previous is None:
+        return {}
+    run = ws.run(class_name, term)
+    keys = list(dict.fromkeys(keys))  # rows follow the order of ``keys``
+    wanted = set(keys)
+
+    def counts(run_id: int) -> Counter:
+        return Counter((a.writer, a.key) for a in ws.attachments(run_id) if a.key in wanted)
+
+    now, before = counts(run.id), counts(previous.id)
+    prev_writers = set(ws.writers(previous.id))
+    result: dict[str, tuple[ProgressRow, ...]] = {}
+    for writer in ws.writers(run.id):
+        earlier = (same_writer or {}).get(writer, writer)
+        if earlier not in prev_writers:
+            continue
+        result[writer] = tuple(ProgressRow(*k, before[(earlier, k)], now[(writer, k)]) for k in keys
+                               if before[(earlier, k)] or now[(writer, k)])
+    return result

@@ -1,9 +1,9 @@
 """Report stage: printable HTML handouts, the teacher overview and per-student sheets.
 
 Only this package touches jinja2. The ``build_*_context`` functions are pure (a
-:class:`RunData` in, a plain dict out) so that tests can check what each template
+:class:`~hingeword.view.RunView` in, a plain dict out) so that tests can check what each template
 receives; :func:`render` turns one context into HTML; :func:`write_reports` does
-both for one stored run and writes, into ``out_dir/<class>/<term>/``:
+both for one stored run (read once as a :class:`~hingeword.view.RunView`) and writes, into ``out_dir/<class>/<term>/``:
 
 * ``handout.html`` — for students: the top over-used patterns, the native pattern,
   the likely reason, the class's own sentences and one practice item each;
@@ -20,8 +20,8 @@ Essay text is untrusted: it reaches templates only as plain strings or as lists
 of ``(text, is_key)`` segments, and the environment autoescapes everything.
 
 Modules: :mod:`~hingeword.report.text` (segments, sentence views, answer key,
-number formatting), :mod:`~hingeword.report.context` (:class:`RunData`,
-:func:`load_run`, handout and student-sheet contexts),
+number formatting), :mod:`~hingeword.report.context` (handout and student-sheet
+contexts),
 :mod:`~hingeword.report.overview` (overview and trends contexts) and
 :mod:`~hingeword.report.rendering` (the jinja2 environment). Every public name is
 importable from ``hingeword.report``; the templates stay in ``hingeword/templates``.
@@ -35,15 +35,14 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from ..errors import HingewordError
-from ..export import patterns_frame, write_patterns
+from ..export import records_frame, write_table
 from ..history import Workspace
+from ..view import RunView, load_run_view
 from .context import (
     SHEET_SENTENCES,
-    RunData,
     build_handout_context,
     build_students_context,
     learner_reason,
-    load_run,
     pick_examples,
 )
 from .overview import KWIC_LINES, TREND_CHART_PATTERNS, build_overview_context, build_trends_context
@@ -58,20 +57,18 @@ from .text import (
     fmt_int,
     fmt_ratio,
     fmt_share,
-    pattern_label,
     segments,
     sentence_view,
-    short_label,
     slugify,
 )
 
 __all__ = [
     "KWIC_LINES", "MAX_SENTENCE_CHARS", "NAMES", "SHEET_SENTENCES", "TREND_CHART_PATTERNS",
-    "ReportPaths", "RunData", "Segments", "SentenceView", "Span",
+    "ReportPaths", "RunView", "Segments", "SentenceView", "Span",
     "answer_key", "build_handout_context", "build_overview_context", "build_students_context",
     "build_trends_context", "environment", "fmt_dec", "fmt_int", "fmt_ratio", "fmt_share",
-    "learner_reason", "load_run", "pattern_label", "pick_examples", "render", "segments",
-    "sentence_view", "short_label", "slugify", "write_reports", "write_trends",
+    "learner_reason", "load_run_view", "pick_examples", "render", "segments",
+    "sentence_view", "slugify", "write_reports", "write_trends", "make_reports", "make_trends", "TrendsOutcome",
 ]
 
 log = logging.getLogger("hingeword")
@@ -108,7 +105,7 @@ def write_reports(ws: Workspace, class_name: str, term: str, out_dir: Path, *, t
     if names not in NAMES:
         raise HingewordError(f"names must be 'pseudonyms' or 'real', not '{names}'")
     today = today or _dt.date.today().isoformat()
-    data = load_run(ws, class_name, term, match=match)
+    data = load_run_view(ws, class_name, term, match=match)
     env = environment(template_dir)
     folder = Path(out_dir) / slugify(class_name) / slugify(term)
     folder.mkdir(parents=True, exist_ok=True)
@@ -123,7 +120,7 @@ def write_reports(ws: Workspace, class_name: str, term: str, out_dir: Path, *, t
     )
     for path, template, context in pages:
         path.write_text(render(template, context, env=env), encoding="utf-8")
-    write_patterns(patterns_frame(list(data.figures)), paths.patterns_csv)
+    write_table(records_frame(data.records), paths.patterns_csv)
     log.info("reports for %s / %s written to %s", class_name, term, folder)
     return paths
 
@@ -151,3 +148,33 @@ def write_trends(ws: Workspace, class_name: str, out_dir: Path, *, today: str | 
     path.write_text(render("trends.html", context, template_dir=template_dir), encoding="utf-8")
     log.info("trends for %s written to %s", class_name, path)
     return path
+
+
+def make_reports(workspace: str | Path, class_name: str, term: str, out_dir: str | Path, *, top: int = 5,
+                 names: str = "pseudonyms", match: bool = False, today: str | None = None) -> ReportPaths:
+    """Open the workspace and :func:`write_reports` for one run (what ``hingeword report`` calls)."""
+    with Workspace(workspace, create=False) as ws:
+        return write_reports(ws, class_name, term, Path(out_dir), top=top, names=names, match=match, today=today)
+
+
+@dataclass(frozen=True)
+class TrendsOutcome:
+    lines: tuple[str, ...]
+    path: Path | None
+
+
+def make_trends(workspace: str | Path, class_name: str, *, out_dir: str | Path | None = None,
+                match: bool = False, today: str | None = None) -> TrendsOutcome:
+    """The trends table as text lines, proposed writer matches, and ``trends.html`` when ``out_dir`` is given."""
+    from ..trends import MATCH_THRESHOLD, compute_trends, text_table, writer_matches
+
+    with Workspace(workspace, create=False) as ws:
+        tr = compute_trends(ws, class_name)
+        lines = list(text_table(tr))
+        if match:
+            lines.append(f"Proposed writer matches (name similarity ≥ {MATCH_THRESHOLD:.0f}; please check):")
+            found = [f"  {t['term']}: '{cur}' = '{prev}' ({score:.0f})"
+                     for t in tr.terms for cur, prev, score in writer_matches(ws, t["class"], t["term"])]
+            lines += found or ["  none"]
+        path = write_trends(ws, class_name, Path(out_dir), match=match, today=today) if out_dir is not None else None
+    return TrendsOutcome(tuple(lines), path)

@@ -5,7 +5,6 @@ flagged ones in detail, run facts) and ``trends.html`` (terms and charts).
 from __future__ import annotations
 
 import datetime as _dt
-import json
 import logging
 import re
 
@@ -13,9 +12,10 @@ from markupsafe import Markup
 
 from .. import __version__
 from ..export import kwic
-from ..score import STATUSES
-from .context import RunData, _by_key, _common, _key, _label_of, _native, _sorted_figures
-from .text import _num, fmt_dec, fmt_int, fmt_ratio, fmt_share, pattern_label, short_label
+from ..record import PatternRecord, Status, key_label, plain_label
+from ..view import RunView
+from .context import by_key, common_context, native_of, since_for_teachers
+from .text import fmt_dec, fmt_int, fmt_ratio, fmt_share
 
 log = logging.getLogger("hingeword")
 
@@ -25,7 +25,6 @@ KWIC_LINES = 12
 TREND_CHART_PATTERNS = 6
 
 
-_MEASURES = {"oe": "observed / expected (oe)", "mi": "mutual information (mi)", "logdice": "logDice (logdice)"}
 _POS = {"VERB": "verb", "ADJ": "adjective", "NOUN": "noun"}
 
 
@@ -41,90 +40,83 @@ def _reference(manifest: dict) -> dict:
     }
 
 
-_THRESHOLDS = (
-    ("min_count", "Instances a pattern needs in the class", fmt_int),
-    ("min_writers", "Different writers a pattern needs", fmt_int),
-    ("min_reference", "Uses of the governor needed in the reference", fmt_int),
-    ("min_g2", "Log-likelihood G² at least", lambda v: fmt_dec(v, 2)),
-    ("min_log_ratio", "Log Ratio at least (1 = twice the native rate)", lambda v: fmt_dec(v, 2)),
-    ("measure", "Score behind the collocation ratio", lambda v: _MEASURES.get(v, str(v))),
-    ("term_start", "Term start", str),
-)
-
-
-def _row(f: dict) -> dict:
-    dismissed = bool(f.get("dismissed"))
-    status = str(f.get("status", ""))
+def _row(r: PatternRecord) -> dict:
     return {
-        "pattern": short_label(f["governor"], f["preposition"]), "pos": _POS.get(f["governor_pos"], f["governor_pos"]),
-        "flagged": bool(f.get("flagged")), "dismissed": dismissed,
-        "status": f"{status} (dismissed)" if dismissed else status,
-        "learner_count": fmt_int(f.get("learner_count")), "learner_writers": fmt_int(f.get("learner_writers")),
-        "learner_governor_count": fmt_int(f.get("learner_governor_count")),
-        "learner_share": fmt_share(f.get("learner_share")),
-        "reference_count": fmt_int(f.get("reference_count")),
-        "reference_governor_count": fmt_int(f.get("reference_governor_count")),
-        "reference_share": fmt_share(f.get("reference_share")),
-        "collocation_ratio": fmt_ratio(f.get("collocation_ratio")),
-        "log_likelihood": fmt_dec(f.get("log_likelihood"), 1),
-        "log_ratio": fmt_dec(f.get("log_ratio"), 2, sign=True),
+        "pattern": key_label(r.governor, r.preposition), "pos": _POS.get(r.governor_pos, r.governor_pos),
+        "flagged": r.flagged, "dismissed": r.dismissed,
+        "status": f"{r.status} (dismissed)" if r.dismissed else str(r.status),
+        "learner_count": fmt_int(r.learner_count), "learner_writers": fmt_int(r.learner_writers),
+        "learner_governor_count": fmt_int(r.learner_governor_count),
+        "learner_share": fmt_share(r.learner_share),
+        "reference_count": fmt_int(r.reference_count),
+        "reference_governor_count": fmt_int(r.reference_governor_count),
+        "reference_share": fmt_share(r.reference_share),
+        "collocation_ratio": fmt_ratio(r.collocation_ratio),
+        "log_likelihood": fmt_dec(r.log_likelihood, 1),
+        "log_ratio": fmt_dec(r.log_ratio, 2, sign=True),
     }
 
 
-def build_overview_context(data: RunData, *, names: str = "pseudonyms", today: str) -> dict:
+def build_overview_context(view: RunView, *, names: str = "pseudonyms", today: str) -> dict:
     """Context of ``overview.html``: every pattern, flagged details, run facts.
 
     Concordance lines carry writer codes (or names with ``names="real"``); essay ids,
     which are often file names with students' names, are shown only with real names.
     """
-    figures = _sorted_figures(data.figures)
-    by_key = _by_key(data.attachments)
-    texts = {e["essay_id"]: e["text"] for e in data.essays}
+    records = view.records
+    instances = by_key(view.attachments)
+    texts = {e.essay_id: e.text for e in view.essays}
     flagged = []
-    for n, f in enumerate([f for f in figures if f.get("flagged") and not f.get("dismissed")], start=1):
-        sp, native, suggestion = _native(f)
-        atts = sorted(by_key.get(_key(f), []),
-                      key=lambda a: (_label_of(a.writer, data, names), a.essay_id, a.gov_start))
-        lines = [{"writer": _label_of(w, data, names), "left": left, "key": key, "right": right, "essay": eid}
+    for n, r in enumerate(view.teachable, start=1):
+        _, native, suggestion = native_of(r)
+        atts = sorted(instances.get(r.key, []),
+                      key=lambda a: (view.writer_label(a.writer, names), a.essay_id, a.gov_start))
+        lines = [{"writer": view.writer_label(w, names), "left": left, "key": key, "right": right, "essay": eid}
                  for w, left, key, right, eid in kwic(atts[:KWIC_LINES], texts)]
-        causes = [{"label": str(c.get("label") or c.get("code") or "?"), "code": str(c.get("code", "")),
-                   "confidence": fmt_dec(c.get("confidence"), 2) if _num(c.get("confidence")) is not None else "",
-                   "evidence": str(c.get("evidence") or "")} for c in (f.get("causes") or [])]
+        advice = r.advice
+        causes = [{"label": c.label or c.code or "?", "code": c.code,
+                   "confidence": fmt_dec(c.confidence, 2) if c.confidence == c.confidence else "",
+                   "evidence": c.evidence} for c in (advice.causes if advice else ())]
+        top = advice.cause if advice else None
+        share = advice.suggestion_share if advice else None
         flagged.append({
-            "number": n, "anchor": f"flag-{n}", "pattern": short_label(f["governor"], f["preposition"]),
-            "governor": f["governor"],
-            "class_pattern": pattern_label(f["governor"], f["preposition"]),
+            "number": n, "anchor": f"flag-{n}", "pattern": key_label(r.governor, r.preposition),
+            "governor": r.governor,
+            "class_pattern": plain_label(r.governor, r.preposition),
             "native_pattern": native, "suggestion": suggestion,
-            "suggestion_share": fmt_share(f.get("suggestion_share")) if f.get("suggestion_share") is not None else None,
-            "cause_label": f.get("cause_label") or None, "causes": causes,
-            "explanation": f.get("explanation") or None, "since_last_term": f.get("since_last_term") or None,
-            "summary": (f"{fmt_int(f.get('learner_count'))} times by {fmt_int(f.get('learner_writers'))} writers; "
-                        f"{fmt_share(f.get('learner_share'))} of the class's uses of '{f['governor']}' "
-                        f"against {fmt_share(f.get('reference_share'))} in the reference"),
+            "suggestion_share": fmt_share(share) if share is not None else None,
+            "cause_label": (top.label if top else "") or None, "causes": causes,
+            "explanation": (advice.explanation if advice else "") or None,
+            "since_last_term": since_for_teachers(r),
+            "summary": (f"{fmt_int(r.learner_count)} times by {fmt_int(r.learner_writers)} writers; "
+                        f"{fmt_share(r.learner_share)} of the class's uses of '{r.governor}' "
+                        f"against {fmt_share(r.reference_share)} in the reference"),
             "kwic": lines, "kwic_more": max(0, len(atts) - len(lines)),
         })
-    dismissed = [{"pattern": short_label(f["governor"], f["preposition"]),
-                  "reason": str(f.get("dismissed_reason") or "no reason given"),
-                  "date": str(f.get("dismissed_on") or "")} for f in figures if f.get("dismissed")]
-    settings = _json(data.run.get("settings"))
-    statuses = [(s, sum(1 for f in figures if f.get("status") == s)) for s in STATUSES]
-    run = data.run
+    dismissed = [{"pattern": key_label(r.governor, r.preposition),
+                  "reason": r.decision.reason or "no reason given",
+                  "date": r.decision.decided_on} for r in records if r.decision is not None]
+    statuses = [(str(s), sum(1 for r in records if r.status is s)) for s in Status]
+    run = view.run
+    thresholds = view.thresholds.describe()
+    if run.settings.get("term_start"):
+        thresholds.append(("Term start", str(run.settings["term_start"])))
     return {
-        **_common(data, today, f"Teacher overview: {data.class_name}, {data.term}"),
+        **common_context(view, today, f"Teacher overview: {view.class_name}, {view.term}"),
         "show_essay_ids": names == "real",
-        "run": {"created": _when(run.get("created")), "model": str(run.get("model", "")),
-                "model_version": str(run.get("model_version", "")), "tool_version": str(run.get("tool_version", "")),
-                "words": fmt_int(run.get("words")), "essays_read": fmt_int(run.get("essays_read")),
-                "essays_skipped": fmt_int(run.get("essays_skipped")),
-                "writers": fmt_int(len({e["writer"] for e in data.essays}))},
-        "reference": _reference(_json(run.get("reference"))),
-        "thresholds": [(label, fmt(settings[k])) for k, label, fmt in _THRESHOLDS if settings.get(k) not in (None, "")],
-        "summary": {"patterns": len(figures), "flagged": len(flagged), "dismissed": len(dismissed),
+        "run": {"created": _when(run.created), "model": run.model,
+                "model_version": run.model_version, "tool_version": run.tool_version,
+                "words": fmt_int(run.words), "essays_read": fmt_int(run.essays_read),
+                "essays_skipped": fmt_int(run.essays_skipped),
+                "writers": fmt_int(len({e.writer for e in view.essays}))},
+        "reference": _reference(run.reference),
+        "thresholds": thresholds,
+        "summary": {"patterns": len(records), "flagged": len(flagged), "dismissed": len(dismissed),
                     "statuses": [(s, c) for s, c in statuses if c]},
-        "rows": [_row(f) for f in figures],
+        "rows": [_row(r) for r in records],
         "flagged": flagged, "dismissed": dismissed,
-        "skipped": [{"source": str(s["source"]), "reason": str(s["reason"])} for s in data.skipped],
-        "notes": [{"kind": str(n["kind"]), "message": str(n["message"])} for n in data.notes],
+        "skipped": [{"source": s.source, "reason": s.reason} for s in view.skipped],
+        "notes": [{"kind": n.kind, "message": n.message} for n in view.notes],
     }
 
 
@@ -176,13 +168,3 @@ def _when(stamp) -> str:
     if t.tzinfo is not None:
         return t.astimezone(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
     return t.strftime("%Y-%m-%d %H:%M")
-
-
-def _json(value) -> dict:
-    if isinstance(value, dict):
-        return value
-    try:
-        out = json.loads(value or "{}")
-    except (TypeError, ValueError):
-        return {}
-    return out if isinstance(out, dict) else {}

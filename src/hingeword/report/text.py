@@ -1,5 +1,5 @@
 """Text helpers of the report stage: highlighted segments, sentence views, the answer
-key, number formatting and pattern labels.
+key and number formatting (pattern labels live in :mod:`hingeword.record`).
 
 Essay text reaches templates only as plain strings or as lists of ``(text, is_key)``
 segments (:data:`Segments`), which the environment autoescapes.
@@ -11,7 +11,8 @@ import re
 import unicodedata
 from dataclasses import dataclass
 
-from ..extract import NO_PREP, Attachment
+from ..extract import Attachment
+from ..record import NO_PREP
 
 #: Longest sentence shown whole; longer ones are cut around the pattern with "…".
 MAX_SENTENCE_CHARS = 160
@@ -141,7 +142,7 @@ def answer_key(view: SentenceView, learner_prep: str, suggested: str | None) -> 
     return new, segments(new, [gov] + ([key] if key else []))
 
 
-def _num(x) -> float | None:
+def number(x) -> float | None:
     try:
         v = float(x)
     except (TypeError, ValueError):
@@ -150,12 +151,12 @@ def _num(x) -> float | None:
 
 
 def fmt_int(x) -> str:
-    v = _num(x)
+    v = number(x)
     return "–" if v is None else f"{int(round(v)):,}"
 
 
 def fmt_dec(x, places: int = 1, sign: bool = False) -> str:
-    v = _num(x)
+    v = number(x)
     if v is None:
         return "–"
     if v in (float("inf"), float("-inf")):
@@ -166,7 +167,7 @@ def fmt_dec(x, places: int = 1, sign: bool = False) -> str:
 
 def fmt_ratio(x) -> str:
     """A ratio with sensible precision: 324, 41.5, 2.35, 0.047."""
-    v = _num(x)
+    v = number(x)
     if v is None or v in (float("inf"), float("-inf")) or v == 0:
         return fmt_dec(v, 0) if v is not None else "–"
     a = abs(v)
@@ -183,18 +184,8 @@ def fmt_ratio(x) -> str:
 
 def fmt_share(x) -> str:
     """A share 0..1 as a percentage: whole numbers from 10 %, one decimal below."""
-    v = _num(x)
+    v = number(x)
     if v is None:
         return "–"
     p = 100 * v
     return f"{p:.0f}%" if p >= 9.95 or p == 0 else f"{p:.1f}%"
-
-
-def pattern_label(governor: str, prep: str) -> str:
-    """How a pattern reads in plain words: "discuss about something", "listen something"."""
-    return f"{governor} something" if prep == NO_PREP else f"{governor} {prep} something"
-
-
-def short_label(governor: str, prep: str) -> str:
-    """The compact table form: "discuss about", "listen + object"."""
-    return f"{governor} + object" if prep == NO_PREP else f"{governor} {prep}"
