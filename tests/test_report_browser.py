@@ -102,7 +102,7 @@ def long_run(workspace: Path) -> None:
         ws.replace_run(class_name=CLASS, term=TERM, run_meta={
             "created": "2026-01-12T09:30:00+00:00", "tool_version": __version__, "model": "m", "model_version": "1",
             "extractor_version": "1", "source": "x", "words": 1000, "settings": SETTINGS, "reference": {}},
-            essays=essays, skipped=[], notes=[], attachments=atts, pattern_figures=figures)
+            essays=essays, skipped=[], notes=[], attachments=atts, records=figures)
 
 
 @pytest.mark.parametrize("copy", ["handout", "handout_teacher"])
