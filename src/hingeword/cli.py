@@ -23,6 +23,7 @@ from rich.markup import escape
 
 from . import __version__
 from .errors import HingewordError
+from .files import clean_text
 from .record import parse_slot
 from .score import Thresholds
 
@@ -35,9 +36,16 @@ app = typer.Typer(
 reference_app = typer.Typer(help="Build, list and describe native references.", no_args_is_help=True)
 app.add_typer(reference_app, name="reference")
 
-# User text (class names, essays, file names) is printed as it is: no markup, no emoji codes.
-out = Console(highlight=False, soft_wrap=True, markup=False, emoji=False)
-err = Console(stderr=True, highlight=False, soft_wrap=True, markup=False, emoji=False)
+class _PlainConsole(Console):
+    """User text (class names, essays, file names) is printed as it is: no markup, no emoji
+    codes, and control characters (escape sequences in an essay) replaced by spaces."""
+
+    def print(self, *objects, **kwargs) -> None:  # noqa: A003
+        super().print(*(clean_text(o) for o in objects), **kwargs)
+
+
+out = _PlainConsole(highlight=False, soft_wrap=True, markup=False, emoji=False)
+err = _PlainConsole(stderr=True, highlight=False, soft_wrap=True, markup=False, emoji=False)
 
 
 class Names(str, Enum):

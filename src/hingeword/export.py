@@ -19,6 +19,7 @@ import pandas as pd
 
 from .errors import HingewordError
 from .extract import Attachment
+from .files import atomic_path, clean_text, neutralise_cell
 from .record import COLUMNS, CONTRACT, PatternRecord
 
 __all__ = ["COLUMNS", "CONTRACT", "KWIC_COLUMNS", "SUFFIXES", "ExportResult", "concordance_frame", "export_run",
@@ -34,12 +35,17 @@ def records_frame(records: Sequence[PatternRecord]) -> pd.DataFrame:
 
 
 def write_table(df: pd.DataFrame, path: str | Path) -> Path:
-    """Write any export table by the file's suffix: .csv (UTF-8), .xlsx or .json (records)."""
+    """Write any export table by the file's suffix: .csv (UTF-8), .xlsx or .json (records).
+
+    Safe to open: control characters are replaced by spaces in every format; in XLSX every
+    text cell is stored as text (never as a formula); in CSV a text cell that a spreadsheet
+    would run as a formula gets a leading apostrophe (:func:`hingeword.files.neutralise_cell`).
+    The file is written under a temporary name and renamed into place.
+    """
     path = Path(path)
     suffix = path.suffix.lower()
     if suffix not in SUFFIXES:
         raise HingewordError(f"cannot export to '{path.name}': use a file ending in .csv, .xlsx or .json")
-    path.parent.mkdir(parents=True, exist_ok=True)
     out = df.copy()
     for col in _BOOLEAN_COLUMNS:
         if col in out.columns:
@@ -48,14 +54,39 @@ def write_table(df: pd.DataFrame, path: str | Path) -> Path:
         for col in out.columns:
             if out[col].map(lambda v: isinstance(v, (list, dict))).any():
                 out[col] = out[col].map(lambda v: json.dumps(v, ensure_ascii=False) if isinstance(v, (list, dict)) else v)
-    if suffix == ".csv":
-        out.to_csv(path, index=False, float_format="%.6g", lineterminator="\n")
-    elif suffix == ".xlsx":
-        out.to_excel(path, index=False, sheet_name="patterns" if "governor_pos" in out.columns and "learner_count" in out.columns else "concordance")
-    else:
-        records = json.loads(out.to_json(orient="records", double_precision=10))
-        path.write_text(json.dumps(records, indent=1, ensure_ascii=False) + "\n", encoding="utf-8")
+    text_columns = [c for c in out.columns if out[c].map(lambda v: isinstance(v, str)).any()]
+    for col in text_columns:
+        out[col] = out[col].map(clean_text)
+    with atomic_path(path) as tmp:
+        if suffix == ".csv":
+            for col in text_columns:
+                out[col] = out[col].map(neutralise_cell)
+            out.to_csv(tmp, index=False, float_format="%.6g", lineterminator="\n")
+        elif suffix == ".xlsx":
+            _write_xlsx(out, tmp, "patterns" if "governor_pos" in out.columns and "learner_count" in out.columns
+                        else "concordance")
+        else:
+            records = json.loads(out.to_json(orient="records", double_precision=10))
+            tmp.write_text(json.dumps(records, indent=1, ensure_ascii=False) + "\n", encoding="utf-8")
     return path
+
+
+def _write_xlsx(df: pd.DataFrame, path: Path, sheet: str) -> None:
+    """One sheet, header row first; strings are typed as text so "=..." is never a formula."""
+    from openpyxl import Workbook
+
+    wb = Workbook()
+    ws = wb.active
+    ws.title = sheet
+    ws.append([str(c) for c in df.columns])
+    for row in df.itertuples(index=False, name=None):
+        ws.append([None if (v is None or (isinstance(v, float) and v != v) or v is pd.NA) else
+                   (v.item() if hasattr(v, "item") else v) for v in row])
+    for cells in ws.iter_rows(min_row=1):
+        for cell in cells:
+            if isinstance(cell.value, str):
+                cell.data_type = "s"
+    wb.save(path)
 
 
 def kwic(attachments: list[Attachment], texts: dict[str, str], width: int = 40) -> list[tuple[str, str, str, str, str]]:

@@ -14,7 +14,8 @@ from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
-from .errors import ModelError
+from .errors import HingewordError, ModelError
+from .files import atomic_path
 
 log = logging.getLogger("hingeword")
 
@@ -127,10 +128,13 @@ class ParseCache:
         from spacy.tokens import DocBin
 
         path = self._path(key)
-        path.parent.mkdir(parents=True, exist_ok=True)
-        tmp = path.with_suffix(".tmp")
-        DocBin(docs=[doc], store_user_data=False).to_disk(tmp)
-        os.replace(tmp, path)  # atomic: a killed scan never leaves half a file
+        # a unique temporary name (two scans may share the cache), renamed into place: a
+        # killed scan never leaves half a file
+        try:
+            with atomic_path(path) as tmp:
+                DocBin(docs=[doc], store_user_data=False).to_disk(tmp)
+        except HingewordError as exc:  # a cache that cannot be written only costs time
+            log.warning("parse cache not written: %s", exc)
 
 
 def parse_texts(

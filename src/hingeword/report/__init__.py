@@ -36,6 +36,7 @@ from pathlib import Path
 
 from ..errors import HingewordError
 from ..export import records_frame, write_table
+from ..files import write_text
 from ..history import Workspace
 from ..view import RunView, load_run_view
 from .context import (
@@ -119,7 +120,7 @@ def write_reports(ws: Workspace, class_name: str, term: str, out_dir: Path, *, t
         (paths.students, "students.html", build_students_context(data, names=names, today=today)),
     )
     for path, template, context in pages:
-        path.write_text(render(template, context, env=env), encoding="utf-8")
+        write_text(path, render(template, context, env=env))
     write_table(records_frame(data.records), paths.patterns_csv)
     log.info("reports for %s / %s written to %s", class_name, term, folder)
     return paths
@@ -145,7 +146,7 @@ def write_trends(ws: Workspace, class_name: str, out_dir: Path, *, today: str | 
         pattern_charts={p.key: chart_pattern(tr, p) for p in tr.patterns if not p.dismissed}, matches=matches)
     path = Path(out_dir) / slugify(class_name) / "trends.html"
     path.parent.mkdir(parents=True, exist_ok=True)
-    path.write_text(render("trends.html", context, template_dir=template_dir), encoding="utf-8")
+    write_text(path, render("trends.html", context, template_dir=template_dir))
     log.info("trends for %s written to %s", class_name, path)
     return path
 
