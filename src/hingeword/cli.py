@@ -332,6 +332,45 @@ def demo(
         out.print(line)
 
 
+@_command(app)
+@_with_threshold_options
+def serve(
+    workspace: Path = WorkspaceOpt,
+    host: str = typer.Option("127.0.0.1", "--host", help="Address to listen on. Anything but a loopback address "
+                             "(127.0.0.1, ::1, localhost) makes the page require a printed access token."),
+    port: int = typer.Option(8765, "--port", min=0, max=65535, help="Port (0: any free port)."),
+    model: Optional[str] = typer.Option(None, "--model", help="spaCy pipeline for scans (package name or path)."),
+    reference: list[str] = typer.Option([], "--reference", help="Reference name or folder for scans (repeatable; default: brown)."),
+    rules: list[Path] = typer.Option([], "--rules", help="Extra rules folder overlaying the bundled rules (repeatable)."),
+    encoding: Optional[str] = typer.Option(None, "--encoding", help="Decode non-UTF-8 text files with this codec."),
+    open_browser: bool = typer.Option(False, "--open", help="Also open the page in the default browser."),
+    thresholds: Thresholds = None,
+):
+    """Start the local web page: classes, uploads, scans, handouts, review, downloads and erasing, in a browser."""
+    from .web import serve as run_server
+
+    options = {"model": model, "references": reference, "rules_dirs": rules, "encoding": encoding,
+               "thresholds": thresholds}
+    run_server(workspace, host=host, port=port, scan_options=options, say=out.print, open_browser=open_browser)
+
+
+@_command(app)
+def forget(
+    class_name: str = typer.Option(..., "--class", help="The class to erase."),
+    term: Optional[str] = typer.Option(None, "--term", help="Erase only this term (default: every term of the class)."),
+    workspace: Path = WorkspaceOpt,
+    yes: bool = typer.Option(False, "--yes", "-y", help="Do not ask for confirmation."),
+):
+    """Erase a class's (or one term's) essays and results from the workspace."""
+    from .forget import forget as do_forget
+
+    what = f"{class_name} / {term}" if term else f"every term of {class_name}"
+    if not yes and not typer.confirm(f"Erase the essays and results of {what} from {workspace}?", err=True):
+        _fail("nothing was erased")
+    for line in do_forget(workspace, class_name, term).lines():
+        out.print(line)
+
+
 # ------------------------------------------------------------------ reference
 
 

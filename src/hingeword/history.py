@@ -178,6 +178,17 @@ class Note:
     message: str
 
 
+@dataclass(frozen=True)
+class Forgotten:
+    """What :meth:`Workspace.forget` deleted."""
+
+    runs: tuple[RunInfo, ...]
+    essays: int
+    decisions: int
+    links: int
+    unused_texts: frozenset[str]  # sha256 of essay texts that no stored run holds any more
+
+
 def _json_dict(text) -> dict:
     try:
         value = json.loads(text or "{}")
@@ -427,6 +438,46 @@ class Workspace:
                     codes[writer] = f"S{len(codes) + 1:02d}"
         return codes
 
+    def forget(self, class_name: str, term: str | None = None) -> Forgotten:
+        """Delete the runs of a class (or its one ``term``) in one transaction: essays, instances,
+        figures, skipped files and notes. Deleting the whole class also deletes the decisions made
+        for it, their log and its links to other classes (linked classes keep their own runs).
+
+        Deleted rows are overwritten in the database file (``PRAGMA secure_delete``) and the
+        write-ahead log is truncated afterwards, so the essays do not linger on disk.
+        Nothing stored is not an error: the result says what was deleted.
+        """
+        c = self.conn
+        c.execute("PRAGMA secure_delete = ON")
+        with self._tx():
+            if term is None:
+                rows = c.execute("SELECT * FROM runs WHERE class = ?", (class_name,)).fetchall()
+            else:
+                rows = c.execute("SELECT * FROM runs WHERE class = ? AND term = ?", (class_name, term)).fetchall()
+            runs = tuple(RunInfo.from_row(r) for r in rows)
+            ids = [r.id for r in runs]
+            marks = ", ".join("?" * len(ids))
+            hashes: set[str] = set()
+            essays = 0
+            if ids:
+                found = c.execute(f"SELECT sha256 FROM essays WHERE run_id IN ({marks})", ids).fetchall()
+                essays = len(found)
+                hashes = {r[0] for r in found}
+                c.execute(f"DELETE FROM runs WHERE id IN ({marks})", ids)  # the rest cascades
+            decisions = links = 0
+            if term is None:
+                decisions = c.execute("DELETE FROM decisions WHERE scope = ?", (class_name,)).rowcount
+                c.execute("DELETE FROM decision_log WHERE scope = ?", (class_name,))
+                links = c.execute("DELETE FROM class_links WHERE old = ? OR new = ?", (class_name, class_name)).rowcount
+            still = set()
+            if hashes:
+                listed = sorted(hashes)
+                still = {r[0] for r in c.execute(
+                    f"SELECT DISTINCT sha256 FROM essays WHERE sha256 IN ({', '.join('?' * len(listed))})", listed)}
+        c.execute("PRAGMA wal_checkpoint(TRUNCATE)")
+        return Forgotten(runs=runs, essays=essays, decisions=decisions, links=links,
+                         unused_texts=frozenset(hashes - still))
+
     # ----------------------------------------------------------- class links
     def link_classes(self, old: str, new: str) -> None:
         """Record that class ``new`` continues class ``old`` (same group of students)."""
@@ -485,6 +536,17 @@ class Workspace:
         marks = ", ".join("?" * len(scopes))
         rows = self.conn.execute(f"SELECT * FROM decisions WHERE scope IN ({marks}) ORDER BY decided_on", scopes)
         return {(r["governor"], r["preposition"]): Decision(reason=r["reason"], decided_on=r["decided_on"]) for r in rows}
+
+    def decision_scopes(self, class_name: str) -> dict[tuple[str, str], str]:
+        """For each active dismissal that applies to a class: the scope it was made for
+        (a class of its group, or :data:`ALL_CLASSES`); a class's own decision wins."""
+        scopes = [ALL_CLASSES] + sorted(self.class_group(class_name))
+        marks = ", ".join("?" * len(scopes))
+        rows = self.conn.execute(f"SELECT scope, governor, preposition FROM decisions WHERE scope IN ({marks})", scopes)
+        found: dict[tuple[str, str], str] = {}
+        for r in sorted(rows, key=lambda r: r["scope"] != ALL_CLASSES):
+            found[(r["governor"], r["preposition"])] = r["scope"]
+        return found
 
 
 def per_10k(count: int, words: int) -> float:

@@ -10,6 +10,7 @@ import hashlib
 import importlib.util
 import logging
 import os
+import re
 from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -135,6 +136,24 @@ class ParseCache:
                 DocBin(docs=[doc], store_user_data=False).to_disk(tmp)
         except HingewordError as exc:  # a cache that cannot be written only costs time
             log.warning("parse cache not written: %s", exc)
+
+
+def forget_cached(cache_dir: str | Path, keys) -> int:
+    """Remove the cached parses of the texts with these keys (:func:`text_key`), under every
+    model's folder; returns how many files were removed. Keys that are not sha256 hex are ignored."""
+    root = Path(cache_dir)
+    wanted = [k for k in keys if re.fullmatch(r"[0-9a-f]{64}", k)]
+    if not root.is_dir() or not wanted:
+        return 0
+    removed = 0
+    for model_dir in sorted(p for p in root.iterdir() if p.is_dir() and not p.is_symlink()):
+        for key in wanted:
+            try:
+                (model_dir / key[:2] / f"{key}.spacy").unlink()
+                removed += 1
+            except FileNotFoundError:
+                pass
+    return removed
 
 
 def parse_texts(

@@ -71,11 +71,14 @@ def scan(
     rules_dirs: Sequence[str | Path] = (),
     encoding: str | None = None,
     progress: Callable[[int, int], None] | None = None,
+    stage: Callable[[str], None] | None = None,
 ) -> ScanResult:
     """Scan one class's essays for one term and store the run in the workspace.
 
     :param thresholds: the flag decision's thresholds (default :class:`~hingeword.score.Thresholds`).
     :param progress: called as ``progress(done, total)`` while parsing.
+    :param stage: called with the name of each stage as it starts: ``"read"``, ``"parse"``
+        (parsing and extraction, essay by essay), ``"score"``, ``"store"``.
     """
     from . import reference as ref_mod
     from .causes import categorise, l1_tallies
@@ -83,6 +86,8 @@ def scan(
     from .score import score_patterns
 
     thresholds = thresholds or Thresholds()
+    say = stage or (lambda name: None)
+    say("read")
     ingest = read_essays(folder, manifest=manifest, encoding=encoding)
     if not ingest.essays:
         reasons = "; ".join(f"{s.source}: {s.reason}" for s in ingest.skipped[:3])
@@ -108,10 +113,12 @@ def scan(
                 progress(done, len(texts))
 
         attachments = []
+        say("parse")
         docs = parse_texts(texts, nlp, info, cache_dir=ws.cache_dir, processes=processes or default_processes(),
                            stats=stats, progress=tick)
         for essay, doc in zip(ingest.essays, docs):
             attachments.extend(extract_doc(doc, essay.essay_id, essay.writer))
+        say("score")
         attachments, groups = group_governors(attachments, reference.lemmas)
         records = score_patterns(count_patterns(attachments), attachments, reference, thresholds)
         l1_of = {e.writer: (e.l1 or l1 or "").strip().lower() for e in ingest.essays}
@@ -138,6 +145,7 @@ def scan(
         if other:
             notes.append(("model", f"essays parsed with {info.name}, reference with {', '.join(other)}: "
                                    "counts may differ by parser"))
+        say("store")
         run_id = ws.replace_run(
             class_name=class_name,
             term=term,

@@ -70,6 +70,7 @@ __all__ = [
     "build_trends_context", "environment", "fmt_dec", "fmt_int", "fmt_ratio", "fmt_share",
     "learner_reason", "load_run_view", "pick_examples", "render", "segments",
     "sentence_view", "slugify", "write_reports", "write_trends", "make_reports", "make_trends", "TrendsOutcome",
+    "PAGES", "report_pages", "trends_page_context",
 ]
 
 log = logging.getLogger("hingeword")
@@ -87,6 +88,24 @@ class ReportPaths:
     overview: Path
     students: Path
     patterns_csv: Path
+
+
+#: The report pages of one run: name (a :class:`ReportPaths` field) → template.
+PAGES = {"handout": "handout.html", "handout_teacher": "handout.html", "overview": "overview.html",
+         "students": "students.html"}
+
+
+def report_pages(data: RunView, *, top: int = 5, names: str = "pseudonyms",
+                 today: str | None = None) -> dict[str, tuple[str, dict]]:
+    """Each report page of one run as ``name → (template, context)`` (what :func:`write_reports`
+    writes and the web page shows)."""
+    today = today or _dt.date.today().isoformat()
+    return {
+        "handout": (PAGES["handout"], build_handout_context(data, top=top, today=today, teacher=False)),
+        "handout_teacher": (PAGES["handout_teacher"], build_handout_context(data, top=top, today=today, teacher=True)),
+        "overview": (PAGES["overview"], build_overview_context(data, names=names, today=today)),
+        "students": (PAGES["students"], build_students_context(data, names=names, today=today)),
+    }
 
 
 def write_reports(ws: Workspace, class_name: str, term: str, out_dir: Path, *, top: int = 5,
@@ -113,17 +132,27 @@ def write_reports(ws: Workspace, class_name: str, term: str, out_dir: Path, *, t
     paths = ReportPaths(folder=folder, handout=folder / "handout.html", handout_teacher=folder / "handout-teacher.html",
                         overview=folder / "overview.html", students=folder / "students.html",
                         patterns_csv=folder / "patterns.csv")
-    pages = (
-        (paths.handout, "handout.html", build_handout_context(data, top=top, today=today, teacher=False)),
-        (paths.handout_teacher, "handout.html", build_handout_context(data, top=top, today=today, teacher=True)),
-        (paths.overview, "overview.html", build_overview_context(data, names=names, today=today)),
-        (paths.students, "students.html", build_students_context(data, names=names, today=today)),
-    )
-    for path, template, context in pages:
-        write_text(path, render(template, context, env=env))
+    for page, (template, context) in report_pages(data, top=top, names=names, today=today).items():
+        write_text(getattr(paths, page), render(template, context, env=env))
     write_table(records_frame(data.records), paths.patterns_csv)
     log.info("reports for %s / %s written to %s", class_name, term, folder)
     return paths
+
+
+def trends_page_context(ws: Workspace, class_name: str, *, today: str | None = None, match: bool = False) -> dict:
+    """The context of ``trends.html`` for a class, charts included (what :func:`write_trends`
+    writes and the web page shows)."""
+    from ..trends import chart_overview, chart_pattern, compute_trends, writer_matches
+
+    today = today or _dt.date.today().isoformat()
+    tr = compute_trends(ws, class_name)
+    matches = []
+    if match:
+        for t in tr.terms:
+            matches += [(t["term"], cur, prev, score) for cur, prev, score in writer_matches(ws, t["class"], t["term"])]
+    return build_trends_context(
+        tr, today=today, overview_chart=chart_overview(tr, top=TREND_CHART_PATTERNS) if tr.patterns else "",
+        pattern_charts={p.key: chart_pattern(tr, p) for p in tr.patterns if not p.dismissed}, matches=matches)
 
 
 def write_trends(ws: Workspace, class_name: str, out_dir: Path, *, today: str | None = None, match: bool = False,
@@ -133,17 +162,7 @@ def write_trends(ws: Workspace, class_name: str, out_dir: Path, *, today: str | 
     :param match: also list fuzzy matches of writer names between consecutive terms.
     :returns: the path written.
     """
-    from ..trends import chart_overview, chart_pattern, compute_trends, writer_matches
-
-    today = today or _dt.date.today().isoformat()
-    tr = compute_trends(ws, class_name)
-    matches = []
-    if match:
-        for t in tr.terms:
-            matches += [(t["term"], cur, prev, score) for cur, prev, score in writer_matches(ws, t["class"], t["term"])]
-    context = build_trends_context(
-        tr, today=today, overview_chart=chart_overview(tr, top=TREND_CHART_PATTERNS) if tr.patterns else "",
-        pattern_charts={p.key: chart_pattern(tr, p) for p in tr.patterns if not p.dismissed}, matches=matches)
+    context = trends_page_context(ws, class_name, today=today, match=match)
     path = Path(out_dir) / slugify(class_name) / "trends.html"
     path.parent.mkdir(parents=True, exist_ok=True)
     write_text(path, render("trends.html", context, template_dir=template_dir))
