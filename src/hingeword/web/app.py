@@ -229,12 +229,13 @@ def _preview(folder: store.TermFolder | None) -> dict:
     """What a scan would read from the uploaded essays (the scan's own reader, no parsing)."""
     from ..ingest import read_essays
 
+    empty = {"essays": 0, "writers": 0, "words": 0, "skipped": [], "error": None, "duplicates": [], "near": []}
     if folder is None or not folder.files():
-        return {"essays": 0, "writers": 0, "skipped": [], "error": None, "words": 0}
+        return empty
     try:
         res = read_essays(folder.essays, manifest=folder.manifest)
     except HingewordError as exc:
-        return {"essays": 0, "writers": 0, "skipped": [], "error": f"Error: {exc}", "words": 0}
+        return {**empty, "error": f"Error: {exc}"}
     return {"essays": len(res.essays), "writers": len({e.writer for e in res.essays}), "words": res.word_count,
             "skipped": res.skipped, "error": None,
             "duplicates": [", ".join(g) for g in res.duplicates],

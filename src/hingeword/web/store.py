@@ -266,8 +266,9 @@ def _size_text(n: int) -> str:
     return f"{n / 1_000_000:.0f} MB" if n >= 1_000_000 else f"{n / 1000:.0f} kB"
 
 
-def _zip_entries(up_label: str, fh: BinaryIO, skipped: list[Skipped]) -> Iterator[tuple[str, bytes]]:
-    """The files inside an uploaded zip as (name, bytes), within the bounds; problems go to ``skipped``."""
+def _zip_entries(up_label: str, fh: BinaryIO, skipped: list[Skipped]) -> Iterator[tuple[str, str, bytes]]:
+    """The files inside an uploaded zip as (name without the shared top folder, name as shown, bytes),
+    within the bounds; problems go to ``skipped``."""
     try:
         zf = zipfile.ZipFile(fh)
     except (zipfile.BadZipFile, OSError, ValueError, EOFError):
@@ -311,7 +312,7 @@ def _zip_entries(up_label: str, fh: BinaryIO, skipped: list[Skipped]) -> Iterato
                 skipped.append(Skipped(up_label, f"the zip unpacks to more than {_size_text(MAX_ZIP_BYTES)}; "
                                                  "the files after this point were not unpacked"))
                 return
-            yield _strip(info.filename, drop), data
+            yield _strip(info.filename, drop), where, data
 
 
 def _store(folder: TermFolder, name: str, data: bytes, written: set[str], report: UploadReport, shown: str) -> None:
@@ -378,8 +379,8 @@ def save_uploads(folder: TermFolder, files: Iterable[Upload] = (), *, folder_fil
     for up, drop in batch:
         shown = label(up.name)
         if up.name.lower().endswith(".zip"):
-            for name, data in _zip_entries(shown, up.file, report.skipped):
-                take(name, data, f"{shown}: {label(name)}")
+            for name, where, data in _zip_entries(shown, up.file, report.skipped):
+                take(name, data, where)
             continue
         data = _read_bounded(up.file, MAX_FILE_BYTES)
         if len(data) > MAX_FILE_BYTES:
