@@ -14,7 +14,7 @@ document.addEventListener("DOMContentLoaded", function () {
       .then(function (r) { return r.json(); })
       .then(function (job) {
         if (job.state !== "running") { window.location.reload(); return; }
-        label.textContent = "Scanning: step " + job.stage_number + " of " + job.stages;
+        label.textContent = job.stage_number ? "Scanning: step " + job.stage_number + " of " + job.stages : "Scanning";
         if (job.total) { bar.max = job.total; bar.value = job.done; } else { bar.removeAttribute("value"); }
         text.textContent = job.stage_label + (job.total ? ": " + job.done + " of " + job.total + " essays" : "") + "…";
         window.setTimeout(poll, 1000);
