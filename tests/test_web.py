@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import csv
 import html
+import importlib.util
 import io
 import re
 import socket
@@ -18,9 +19,11 @@ from pathlib import Path
 
 import pytest
 from starlette.testclient import TestClient
+from typer.testing import CliRunner
 
 import conftest
 from conftest import ESSAYS, TINY_SETTINGS, db_counts, store_hand_run
+from hingeword.cli import app as cli_app
 from hingeword.errors import HingewordError
 from hingeword.history import Workspace
 from hingeword.web import _bind, check_dependencies, create_app, store
@@ -236,13 +239,16 @@ def test_web_unknown_class_is_404(client):
     assert r.status_code == 404 and "no such class" in r.text
 
 
-def test_web_missing_dependencies_message(monkeypatch):
-    import importlib.util
-
+def test_web_missing_dependencies_message(monkeypatch, tmp_path):
+    monkeypatch.chdir(tmp_path)
     real = importlib.util.find_spec
     monkeypatch.setattr(importlib.util, "find_spec", lambda name, *a: None if name == "uvicorn" else real(name, *a))
-    with pytest.raises(HingewordError, match=r'^the web page needs uvicorn: install them with pip install "hingeword\[web\]"$'):
+    message = "the web page needs the 'web' extra (missing: uvicorn); install it with pip install \"hingeword[web]\""
+    with pytest.raises(HingewordError) as exc:
         check_dependencies()
+    assert str(exc.value) == message
+    result = CliRunner().invoke(cli_app, ["serve", "-w", "ws"])
+    assert result.exit_code == 1 and result.stderr == f"Error: {message}\n"
 
 
 def test_web_serve_port_in_use():

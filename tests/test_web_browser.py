@@ -175,7 +175,7 @@ def test_web_browser_upload_scan_dismiss_export(server, browser, tmp_path):
 
 
 def test_web_browser_keyboard_labels_and_widths(server, browser, tmp_path):
-    context = browser.new_context(viewport={"width": 1024, "height": 768})
+    context = browser.new_context(viewport={"width": 1024, "height": 768}, locale="en-US")
     page = context.new_page()
     page.set_default_timeout(20_000)
     with recorded(page, tmp_path / "screenshots") as shots:

@@ -34,7 +34,7 @@ def check_dependencies() -> None:
     """Raise a one-line :class:`HingewordError` when the ``web`` extra is not installed."""
     missing = [pkg for pkg, mods in _NEEDS.items() if all(importlib.util.find_spec(m) is None for m in mods)]
     if missing:
-        raise HingewordError(f"the web page needs {', '.join(missing)}: install them with "
+        raise HingewordError(f"the web page needs the 'web' extra (missing: {', '.join(missing)}); install it with "
                              "pip install \"hingeword[web]\"")
 
 
