@@ -356,7 +356,9 @@ def test_web_scan_review_and_download(tmp_path, tiny_ref_path):
         assert "discuss about" not in c.get(url + "/view/handout").text
         assert "discuss about" not in (tmp_path / "ws" / "reports" / "evening-b1" / "2026-spring"
                                        / "handout.html").read_text()
-        assert "taught as correct in &lt;unit 4&gt;" in c.get(url + "/view/overview").text
+        overview = c.get(url + "/view/overview").text
+        assert "taught as correct in &lt;unit 4&gt;" in overview
+        assert f'<a href="{url}#review">Review the flags</a>' in overview and "hingeword dismiss" not in overview
         c.post(url + "/restore", data={"csrf_token": token(c, url), "governor": "discuss", "preposition": "about",
                                        "scope": "class"})
         assert "discuss about something" in c.get(url + "/view/handout").text

@@ -350,7 +350,7 @@ async def view_page(request: Request) -> Response:
         template, context = report_pages(data, top=hw.top, names=names)[PAGES[page][0]]
         nav = {"back": term.url, "back_label": f"{entry.name} / {term.term}", "pages": PAGES, "current": page,
                "base": term.url + "/view/", "names": names, "names_switch": page in ("overview", "students"),
-               "trends": entry.url + "/trends"}
+               "trends": entry.url + "/trends", "review": term.url + "#review"}
         return render("web/report_page.html", {**context, "page_template": template, "web": nav},
                       env=request.app.state.env)
 
@@ -367,7 +367,7 @@ async def trends_page(request: Request) -> Response:
         with Workspace(hw.workspace, create=False) as ws:
             context = trends_page_context(ws, entry.name)
         nav = {"back": entry.url, "back_label": entry.name, "pages": {}, "current": "trends", "base": "",
-               "names": "pseudonyms", "names_switch": False, "trends": None}
+               "names": "pseudonyms", "names_switch": False, "trends": None, "review": None}
         return render("web/report_page.html", {**context, "page_template": "trends.html", "web": nav},
                       env=request.app.state.env)
 
@@ -481,7 +481,7 @@ async def _hingeword_error(request: Request, exc: HingewordError) -> Response:
 def create_app(settings: Settings, *, loopback_only: bool = True) -> Starlette:
     """The application for one workspace. ``loopback_only``: refuse requests whose Host is not
     loopback; ``settings.token``: require the access token (for a server bound elsewhere)."""
-    settings.workspace = Path(settings.workspace)
+    settings.workspace = Path(settings.workspace).resolve()
     Workspace(settings.workspace).close()  # create or migrate it now, not in the middle of a request
     t = r"/c/{ck}/t/{tk}"
     routes = [
