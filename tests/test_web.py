@@ -209,6 +209,8 @@ def test_web_token_required_when_not_loopback(tmp_path):
         assert r.status_code == 303 and r.headers["location"] == "/c/x?a=1"  # the token leaves the address bar
         assert "httponly" in r.headers["set-cookie"].lower() and "samesite=strict" in r.headers["set-cookie"].lower()
         assert c.get("/").status_code == 200  # the cookie carries it from now on
+        r = c.get("/%2Fevil.example/x?token=" + secret)  # the path is "//evil.example/x"
+        assert r.headers["location"] == "/evil.example/x"  # a path on this server, not another site
     with client_for(tmp_path / "ws", token=secret, loopback_only=False) as other:
         other.cookies.set("hingeword_access", "guess")
         assert other.get("/").status_code == 403

@@ -107,7 +107,7 @@ class Guard:
             given = dict(query).get("token")
             if given is not None and secrets.compare_digest(given.encode(), self.token.encode()):
                 rest = urlencode([(k, v) for k, v in query if k != "token"])
-                target = scope.get("path", "/") + (f"?{rest}" if rest else "")
+                target = "/" + scope.get("path", "/").lstrip("/") + (f"?{rest}" if rest else "")  # never '//host'
                 cookie = SimpleCookie()
                 cookie[ACCESS_COOKIE] = self.token
                 cookie[ACCESS_COOKIE]["path"] = "/"
