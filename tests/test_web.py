@@ -22,7 +22,7 @@ from starlette.testclient import TestClient
 from typer.testing import CliRunner
 
 import conftest
-from conftest import ESSAYS, TINY_SETTINGS, db_counts, store_hand_run
+from conftest import ESSAYS, db_counts, store_hand_run
 from hingeword.cli import app as cli_app
 from hingeword.errors import HingewordError
 from hingeword.history import Workspace

@@ -7,7 +7,6 @@ import io
 import json
 import stat
 import zipfile
-from pathlib import Path
 
 import pytest
 
