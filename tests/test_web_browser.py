@@ -139,6 +139,10 @@ def test_web_browser_upload_scan_dismiss_export(server, browser, tmp_path):
         expect(page.locator("h1")).to_contain_text("Small words that matter: evening-b2, 2025-autumn")
         expect(page.locator("main")).to_contain_text("discuss about")
         shots.take("handout")
+        page.emulate_media(media="print")  # printed, the page is the report alone
+        expect(page.locator(".hw-nav")).to_be_hidden()
+        expect(page.locator(".write-line").first).to_be_visible()
+        page.emulate_media(media="screen")
 
         page.goto(term_url + "#review")
         page.get_by_label("Reason for dismissing “discuss about”").fill("taught as correct in unit 4")
