@@ -144,7 +144,7 @@ def export_run(workspace: str | Path, class_name: str, term: str, output: str | 
     for target in (output, concordance):
         if target is not None and Path(target).suffix.lower() not in SUFFIXES:
             raise HingewordError(f"cannot export to '{Path(target).name}': use a file ending in .csv, .xlsx or .json")
-    with Workspace(workspace, create=False) as ws:
+    with Workspace(workspace, read_only=True) as ws:
         view = load_run_view(ws, class_name, term, progress=False)
     path = write_table(records_frame(view.records), output)
     if concordance is None:
@@ -165,7 +165,7 @@ def concordance_lines(workspace: str | Path, class_name: str, term: str, governo
     from .history import Workspace
     from .record import key_label
 
-    with Workspace(workspace, create=False) as ws:
+    with Workspace(workspace, read_only=True) as ws:
         run = ws.run(class_name, term)
         atts = ws.attachments(run.id, key=(governor.lower(), None, preposition.lower()))
         if not atts:
