@@ -214,10 +214,11 @@ def normalise(html: str) -> str:
 
 
 def test_report_slugify_makes_safe_folder_names():
-    assert slugify("Evening B2") == "evening-b2"
-    assert slugify("2026 Spring") == "2026-spring"
-    assert slugify("Évening/B2 ../..") == "evening-b2"
-    assert slugify("///") == "unnamed"
+    assert slugify("evening-b2") == "evening-b2"  # a plain name is its own folder name
+    assert re.fullmatch(r"evening-b2-[0-9a-f]{8}", slugify("Evening B2"))  # changed: a hash of the name added
+    assert re.fullmatch(r"2026-spring-[0-9a-f]{8}", slugify("2026 Spring"))
+    assert re.fullmatch(r"évening-b2-[0-9a-f]{8}", slugify("Évening/B2 ../.."))
+    assert re.fullmatch(r"unnamed-[0-9a-f]{8}", slugify("///"))
 
 
 def test_report_figures_rounded_for_reading():
@@ -397,7 +398,7 @@ def test_report_students_context_one_sheet_per_writer(data):
 
 
 def test_report_write_reports_paths_and_csv(written, tmp_path):
-    folder = tmp_path / "out" / "evening-b2" / "2026-spring"
+    folder = tmp_path / "out" / slugify(CLASS) / slugify(TERM)
     assert written.folder == folder
     for p in (written.handout, written.handout_teacher, written.overview, written.students, written.patterns_csv):
         assert p.parent == folder and p.stat().st_size > 0
@@ -590,7 +591,7 @@ def test_report_write_trends_page_with_inline_charts(ws, tmp_path):
         "reference": REFERENCE}, essays=essays, skipped=[], notes=[], attachments=atts,
         records=[fig("discuss", "VERB", "about", 2, 2, 2, 1, 320, 20.0, 8.0, 300.0, "over-used")])
     path = write_trends(ws, CLASS, tmp_path / "out", today=TODAY)
-    assert path == tmp_path / "out" / "evening-b2" / "trends.html"
+    assert path == tmp_path / "out" / slugify(CLASS) / "trends.html"
     soup = soup_of(path)
     assert soup.title.get_text() == "Trends across terms: Evening B2"
     assert not soup.find_all("script") and len(soup.find_all("svg")) >= 2
