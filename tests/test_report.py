@@ -378,7 +378,7 @@ def test_report_overview_context_rows_flagged_first_with_figures(data):
                                  "date": "2025-12-15"}]
     assert ("Different writers a pattern needs", "2") in ctx["thresholds"]
     assert ctx["reference"]["parts"][0]["limits"].startswith("American English printed in 1961")
-    assert ctx["skipped"] == [{"source": "notes.pdf", "reason": "not an essay: .pdf files are not read"}]
+    assert ctx["skipped"] == [{"source": "file 1 (.pdf)", "reason": "not an essay: .pdf files are not read"}]
     assert ctx["show_essay_ids"] is False
 
 
@@ -489,7 +489,8 @@ def test_report_overview_headings_tables_and_caution(written):
     assert table.find_parent("div", class_="table-wrap")["tabindex"] == "0"
     text = text_of(written.overview)
     assert "'discussion about' 37 times" in text
-    assert "notes.pdf" in text and "not an essay: .pdf files are not read" in text
+    assert "file 1 (.pdf)" in text and "not an essay: .pdf files are not read" in text
+    assert "notes.pdf" not in text and "File names are hidden here" in text
     assert "'emphasise' (VERB) grouped under 'emphasize'" in text
     assert "Limits: American English printed in 1961" in text
 

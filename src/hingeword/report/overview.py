@@ -57,13 +57,72 @@ def _row(r: PatternRecord) -> dict:
     }
 
 
+#: A file name inside a reason or note ("maria_garcia.txt", 'class/tom.docx'): a dot and 1–5 letters or digits
+#: starting with a letter, after at least one character that is not a space or quote.
+_FILE_NAME = re.compile(r"[^\s'\"`]+\.[A-Za-z][A-Za-z0-9]{0,4}\b")
+
+
+def file_namer(view: RunView):
+    """A function that rewrites a text so that no essay file name, folder or writer id
+    shows, for pages under pseudonyms (file names often carry students' names).
+
+    An essay becomes "essay of S03" ("essay 2 of S03" when the writer has several), a
+    writer id their pseudonym, a skipped file "file 4 (.pdf)" or, when it lies in a
+    known writer's folder or carries their name, "a file of S03 (.pdf)"; any other file
+    name left in the text becomes "a file".
+
+    :returns: ``(rename, skipped_label)``: ``rename(text)`` and ``skipped_label(source)``.
+    """
+    per_writer: dict[str, list[str]] = {}
+    for e in view.essays:
+        per_writer.setdefault(e.writer, []).append(e.essay_id)
+    known: dict[str, str] = {}
+    for writer, ids in per_writer.items():
+        code = view.pseudonym(writer)
+        for k, eid in enumerate(ids, start=1):
+            label = f"essay of {code}" if len(ids) == 1 else f"essay {k} of {code}"
+            for form in (eid, eid.rsplit("/", 1)[-1]):
+                known.setdefault(form, label)
+    codes = dict(view.codes)
+    skipped_labels: dict[str, str] = {}
+    for n, s in enumerate(view.skipped, start=1):
+        if ":line " in s.source:  # a manifest row: the manifest's own name, not a student's
+            continue
+        base = s.source.rsplit("/", 1)[-1]
+        stem, dot, ext = base.rpartition(".")
+        ext = f" (.{ext})" if dot and stem and 0 < len(ext) <= 5 else ""
+        owner = next((codes[w] for w in (s.source.split("/", 1)[0], stem or base) if w in codes), None)
+        skipped_labels[s.source] = f"a file of {owner}{ext}" if owner else f"file {n}{ext}"
+    for source, label in skipped_labels.items():
+        known.setdefault(source, label)
+    for writer, code in codes.items():
+        known.setdefault(writer, code)
+    forms = sorted((f for f in known if len(f) >= 3), key=len, reverse=True)
+    pattern = re.compile("|".join(re.escape(f) for f in forms)) if forms else None
+
+    def rename(text: str) -> str:
+        out = pattern.sub(lambda m: known[m.group(0)], text) if pattern else text
+        return _FILE_NAME.sub("a file", out)
+
+    def label(source: str) -> str:
+        if source in skipped_labels:
+            return skipped_labels[source]
+        manifest, sep, line = source.rpartition(":line ")
+        return source if sep and line.isdigit() else rename(source)
+
+    return rename, label
+
+
 def build_overview_context(view: RunView, *, names: str = "pseudonyms", today: str) -> dict:
     """Context of ``overview.html``: every pattern, flagged details, run facts.
 
     Concordance lines carry writer codes (or names with ``names="real"``); essay ids,
-    which are often file names with students' names, are shown only with real names.
+    which are often file names with students' names, are shown only with real names:
+    under pseudonyms, skipped files, duplicate notes and reasons name files by
+    :func:`file_namer`.
     """
     records = view.records
+    rename, label = file_namer(view) if names != "real" else (str, str)
     instances = by_key(view.attachments)
     texts = {e.essay_id: e.text for e in view.essays}
     flagged = []
@@ -115,8 +174,9 @@ def build_overview_context(view: RunView, *, names: str = "pseudonyms", today: s
                     "statuses": [(s, c) for s, c in statuses if c]},
         "rows": [_row(r) for r in records],
         "flagged": flagged, "dismissed": dismissed,
-        "skipped": [{"source": s.source, "reason": s.reason} for s in view.skipped],
-        "notes": [{"kind": n.kind, "message": n.message} for n in view.notes],
+        "skipped": [{"source": label(s.source), "reason": rename(s.reason)} for s in view.skipped],
+        "notes": [{"kind": n.kind, "message": rename(n.message)} for n in view.notes],
+        "file_names_hidden": names != "real" and bool(view.skipped or view.notes),
     }
 
 
