@@ -9,14 +9,14 @@ from __future__ import annotations
 import datetime as _dt
 import logging
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from . import EXTRACTOR_VERSION, __version__
 from .errors import IngestError
 from .extract import extract_doc
 from .history import Workspace
-from .ingest import IngestResult, read_essays
+from .ingest import IngestResult, Skipped, read_essays
 from .parse import ModelInfo, ParseStats, default_processes, load_model, parse_texts
 from .patterns import GovernorMap, count_patterns, group_governors
 from .record import PatternRecord
@@ -55,6 +55,38 @@ def ingest_notes(result: IngestResult) -> list[tuple[str, str]]:
     return notes
 
 
+def _require_essays(ingest: IngestResult, folder, class_name: str, term: str) -> None:
+    """Refuse a scan with no essay to store: the earlier run of the class and term is kept."""
+    if ingest.essays:
+        return
+    reasons = "; ".join(f"{s.source}: {s.reason}" for s in ingest.skipped[:3])
+    more = f" (and {len(ingest.skipped) - 3} more)" if len(ingest.skipped) > 3 else ""
+    raise IngestError(
+        f"no essay could be read from {folder}"
+        + (f" — {len(ingest.skipped)} file(s) skipped: {reasons}{more}" if ingest.skipped else " (no essay files found)")
+        + f"; nothing was stored and any earlier run of {class_name} / {term} is kept"
+    )
+
+
+def within_parser_limit(ingest: IngestResult, max_length: int) -> IngestResult:
+    """Move essays longer than the parser accepts (spaCy's ``nlp.max_length``) to the skipped list.
+
+    Ingest already skips essays over :data:`hingeword.ingest.MAX_ESSAY_CHARS`; a pipeline
+    with a lower limit must not stop the scan with a traceback either.
+    """
+    long = [e for e in ingest.essays if len(e.text) > max_length]
+    if not long:
+        return ingest
+    ids = {e.essay_id for e in long}
+    skipped = list(ingest.skipped) + [
+        Skipped(e.essay_id, f"longer than the parser's limit of {max_length:,} characters ({len(e.text):,}); "
+                            "split it into one essay a file") for e in long]
+    return replace(ingest, essays=[e for e in ingest.essays if e.essay_id not in ids], skipped=skipped,
+                   duplicates=[g for g in (tuple(i for i in grp if i not in ids) for grp in ingest.duplicates)
+                               if len(g) > 1],
+                   near_duplicates=[n for n in ingest.near_duplicates if n.first not in ids and n.second not in ids])
+
+
 def scan(
     folder: str | Path,
     *,
@@ -84,17 +116,12 @@ def scan(
 
     thresholds = thresholds or Thresholds()
     ingest = read_essays(folder, manifest=manifest, encoding=encoding)
-    if not ingest.essays:
-        reasons = "; ".join(f"{s.source}: {s.reason}" for s in ingest.skipped[:3])
-        more = f" (and {len(ingest.skipped) - 3} more)" if len(ingest.skipped) > 3 else ""
-        raise IngestError(
-            f"no essay could be read from {folder}"
-            + (f" — {len(ingest.skipped)} file(s) skipped: {reasons}{more}" if ingest.skipped else " (no essay files found)")
-            + f"; nothing was stored and any earlier run of {class_name} / {term} is kept"
-        )
+    _require_essays(ingest, folder, class_name, term)
     rules = load_rules([Path(d) for d in rules_dirs])
     reference = ref_mod.load_many(references, workspace)
     nlp, info = load_model(model)
+    ingest = within_parser_limit(ingest, nlp.max_length)
+    _require_essays(ingest, folder, class_name, term)
     ws = Workspace(workspace)
     try:
         stats = ParseStats()
