@@ -479,7 +479,7 @@ def test_report_overview_headings_tables_and_caution(written):
     assert soup.title.get_text() == "Teacher overview: Evening B2, 2026 Spring"
     h2 = [h.get_text() for h in soup.find_all("h2")]
     assert h2 == ["Read this first", "At a glance", "Flagged patterns", "All patterns", "Dismissed patterns",
-                  "Essays skipped", "Notes from the scan", "How this was measured"]
+                  "Spelling groups", "Essays skipped", "Notes from the scan", "How this was measured"]
     assert "Flags are candidates for your judgement, not verdicts." in soup.find("aside", class_="caution").get_text()
     table = soup.find("table", class_="figures")
     assert [th.get_text() for th in table.thead.find_all("th")] == [

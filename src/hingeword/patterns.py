@@ -9,7 +9,7 @@ base of the learner-vs-reference comparison.
 from __future__ import annotations
 
 from collections import Counter, defaultdict
-from collections.abc import Iterable, Mapping
+from collections.abc import Collection, Iterable, Mapping
 from dataclasses import replace
 
 import pandas as pd
@@ -22,10 +22,12 @@ GovernorMap = dict[tuple[str, str], tuple[str, str]]
 
 COLUMNS = ["governor", "governor_pos", "preposition", "learner_count", "learner_writers", "learner_governor_count"]
 
-#: A governor lemma counts as a known word when the reference has it, or when it
-#: is at least this common in general English (wordfreq's Zipf scale: 3.0 = once
-#: per million words). Misspellings learners make ("intrested", "recieve") sit
-#: below 3 on the web-based lists; real words rarer than that are kept as written.
+#: A governor lemma counts as a known word when the reference has it, when it is at
+#: least this common in general English (wordfreq's Zipf scale: 3.0 = once per
+#: million words), or when it is in the word list (``rules/wordnet/words.tsv``,
+#: WordNet's lemmas, plus a teacher's own ``words.tsv``). Misspellings learners make
+#: ("intrested", "recieve") sit below 3 on the web-based lists; so do rare real words
+#: ("abase" 1.6, "aliment" and "alimentation" 1.7), which the word list keeps as written.
 KNOWN_ZIPF = 3.0
 #: rapidfuzz ``fuzz.ratio`` (0–100) a misspelt lemma needs to a known lemma of the
 #: same POS to be grouped under it: 85 joins one slip in a 6–7 letter word
@@ -58,11 +60,19 @@ def typo_map(
     *,
     ratio: float = TYPO_RATIO,
     known_zipf: float = KNOWN_ZIPF,
+    words: Collection[str] = frozenset(),
+    keep: Collection[str] = frozenset(),
 ) -> GovernorMap:
     """Map misspelt governor lemmas to a frequent known lemma of the same POS.
 
+    Only a form that is not a word itself is grouped: a lemma in the reference, in
+    ``words`` or common in wordfreq stays as written, and so does one the teacher
+    keeps (``keep``, from ``scan --keep-spelling``).
+
     :param lemmas: the class's (lemma, POS) governors.
     :param lexicon: (lemma, POS) -> tokens in the reference.
+    :param words: known words (lower case), e.g. :attr:`hingeword.rules.Rules.words`.
+    :param keep: lemmas never to group (lower case).
     :returns: ``{(misspelt, pos): (known, pos)}`` for the lemmas that were grouped.
     """
     from wordfreq import zipf_frequency
@@ -77,7 +87,7 @@ def typo_map(
     for lemma, pos in sorted(set(lemmas)):
         if not lemma.isalpha() or len(lemma) < 4 or lexicon.get((lemma, pos), 0) > 0:
             continue
-        if zipf_frequency(lemma, "en") >= known_zipf:
+        if lemma.lower() in words or lemma.lower() in keep or zipf_frequency(lemma, "en") >= known_zipf:
             continue
         best = process.extractOne(lemma, targets.get(pos, []), scorer=fuzz.ratio, score_cutoff=ratio)
         if best is not None:
@@ -91,6 +101,8 @@ def participle_map(
     *,
     ratio: float = TYPO_RATIO,
     known_zipf: float = KNOWN_ZIPF,
+    words: Collection[str] = frozenset(),
+    keep: Collection[str] = frozenset(),
 ) -> GovernorMap:
     """Misspelt participial adjectives the tagger reads as verbs.
 
@@ -99,6 +111,9 @@ def participle_map(
     surface form ends in "-ed" and that form is within ``ratio`` of a known ADJ of
     the reference ("interested", "worried", "married"), it is grouped under that
     adjective.
+
+    A lemma or form that is a word (``words``, wordfreq) or that the teacher keeps
+    (``keep``, lemma or form) is left as written.
 
     :param items: (lemma, POS, surface form) of the class's governors.
     :returns: ``{(lemma, "VERB"): (adjective, "ADJ")}``
@@ -112,6 +127,8 @@ def participle_map(
         if pos != "VERB" or not form.endswith("ed") or not form.isalpha() or lexicon.get((lemma, pos), 0) > 0:
             continue
         if zipf_frequency(form, "en") >= known_zipf or (lemma, pos) in out:
+            continue
+        if any(w in words or w in keep for w in (lemma.lower(), form)):
             continue
         best = process.extractOne(form, adjectives, scorer=fuzz.ratio, score_cutoff=ratio)
         if best is not None:
@@ -131,13 +148,20 @@ def regroup(attachments: Iterable[Attachment], mapping: Mapping[tuple[str, str],
     return out
 
 
-def group_governors(attachments: list[Attachment], lexicon: Mapping[tuple[str, str], int]) -> tuple[list[Attachment], GovernorMap]:
+def group_governors(attachments: list[Attachment], lexicon: Mapping[tuple[str, str], int], *,
+                    words: Collection[str] = frozenset(),
+                    keep: Collection[str] = frozenset()) -> tuple[list[Attachment], GovernorMap]:
     """Group misspelt governors (:func:`typo_map`, then :func:`participle_map`) under known lemmas.
 
+    :param words: known words, never grouped (:attr:`hingeword.rules.Rules.words`).
+    :param keep: forms the teacher keeps as written (``scan --keep-spelling``).
     :returns: the regrouped attachments and the grouping applied (for the run's notes).
     """
-    groups = typo_map({(a.governor, a.governor_pos) for a in attachments}, lexicon)
+    keep = frozenset(k.strip().lower() for k in keep)
+    # a kept form may be given as written ("intrested") or as its lemma ("intreste")
+    keep |= {a.governor.lower() for a in attachments if a.governor_text.lower() in keep}
+    groups = typo_map({(a.governor, a.governor_pos) for a in attachments}, lexicon, words=words, keep=keep)
     unmatched = {(a.governor, a.governor_pos, a.governor_text) for a in attachments
                  if (a.governor, a.governor_pos) not in groups}
-    groups.update(participle_map(unmatched, lexicon))
+    groups.update(participle_map(unmatched, lexicon, words=words, keep=keep))
     return regroup(attachments, groups), groups

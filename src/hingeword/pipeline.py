@@ -102,11 +102,14 @@ def scan(
     l1: str | None = None,
     rules_dirs: Sequence[str | Path] = (),
     encoding: str | None = None,
+    keep_spelling: Sequence[str] = (),
     progress: Callable[[int, int], None] | None = None,
 ) -> ScanResult:
     """Scan one class's essays for one term and store the run in the workspace.
 
     :param thresholds: the flag decision's thresholds (default :class:`~hingeword.score.Thresholds`).
+    :param keep_spelling: forms never grouped under another word as misspellings (as written or
+        their lemma); the overview lists every grouping and this undoes one.
     :param progress: called as ``progress(done, total)`` while parsing.
     """
     from . import reference as ref_mod
@@ -139,14 +142,15 @@ def scan(
                            stats=stats, progress=tick)
         for essay, doc in zip(ingest.essays, docs):
             attachments.extend(extract_doc(doc, essay.essay_id, essay.writer))
-        attachments, groups = group_governors(attachments, reference.lemmas)
+        keep = sorted({k.strip().lower() for k in keep_spelling if k.strip()})
+        attachments, groups = group_governors(attachments, reference.lemmas, words=rules.words, keep=keep)
         records = score_patterns(count_patterns(attachments), attachments, reference, thresholds)
         l1_of = {e.writer: (e.l1 or l1 or "").strip().lower() for e in ingest.essays}
         records = categorise(records, reference, rules, l1_tallies(attachments, l1_of))
         if term_start is None:  # a re-scan keeps the term's recorded start, so term order holds
             old = ws.find_run(class_name, term)
             term_start = old.term_start if old is not None else _dt.date.today().isoformat()
-        run_settings = {**thresholds.as_dict(), "term_start": term_start, "l1": l1}
+        run_settings = {**thresholds.as_dict(), "term_start": term_start, "l1": l1, "keep_spelling": keep}
         run_meta = {
             "tool_version": __version__,
             "model": info.name,

@@ -113,6 +113,27 @@ def file_namer(view: RunView):
     return rename, label
 
 
+def spelling_groups(view: RunView) -> list[dict]:
+    """Every spelling grouping of the run, from its stored instances: the forms as written,
+    the word they were counted as, uses and writers, and the scan option that undoes it."""
+    groups: dict[tuple[str, str, str], dict] = {}
+    for a in view.attachments:
+        if not a.original_governor:
+            continue
+        g = groups.setdefault((a.original_governor, a.governor, a.governor_pos),
+                              {"forms": set(), "uses": 0, "writers": set()})
+        g["forms"].add(a.governor_text.lower())
+        g["uses"] += 1
+        g["writers"].add(a.writer)
+    rows = []
+    for (original, governor, pos), g in sorted(groups.items()):
+        forms = sorted(g["forms"])
+        rows.append({"written": ", ".join(forms), "counted_as": f"{governor} ({_POS.get(pos, pos)})",
+                     "uses": fmt_int(g["uses"]), "writers": fmt_int(len(g["writers"])),
+                     "undo": " ".join(f"--keep-spelling {f}" for f in forms)})
+    return rows
+
+
 def build_overview_context(view: RunView, *, names: str = "pseudonyms", today: str) -> dict:
     """Context of ``overview.html``: every pattern, flagged details, run facts.
 
@@ -177,6 +198,8 @@ def build_overview_context(view: RunView, *, names: str = "pseudonyms", today: s
         "skipped": [{"source": label(s.source), "reason": rename(s.reason)} for s in view.skipped],
         "notes": [{"kind": n.kind, "message": rename(n.message)} for n in view.notes],
         "file_names_hidden": names != "real" and bool(view.skipped or view.notes),
+        "spelling": spelling_groups(view),
+        "kept_spellings": [str(k) for k in run.settings.get("keep_spelling") or ()],
     }
 
 
