@@ -10,6 +10,7 @@ suggestion`` — then the further columns of :data:`hingeword.record.COLUMNS`.
 
 from __future__ import annotations
 
+import io
 import json
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -86,7 +87,11 @@ def _write_xlsx(df: pd.DataFrame, path: Path, sheet: str) -> None:
         for cell in cells:
             if isinstance(cell.value, str):
                 cell.data_type = "s"
-    wb.save(path)
+    # built in memory and written in one piece: a full disk is then one clean OSError, not a
+    # half-closed zip file that complains again when it is garbage-collected
+    buf = io.BytesIO()
+    wb.save(buf)
+    path.write_bytes(buf.getvalue())
 
 
 def kwic(attachments: list[Attachment], texts: dict[str, str], width: int = 40) -> list[tuple[str, str, str, str, str]]:

@@ -359,8 +359,12 @@ class Workspace:
                     # WAL mode needs a shared-memory file beside the database; on a read-only
                     # folder or disk it cannot be made (CANTOPEN, READONLY_DIRECTORY): nobody
                     # can write there either, so the file is read as immutable.
+                    # Also a full disk (IOERR). Immutable reading ignores a write-ahead log, so
+                    # it is used only when there is none with content.
                     code = "_".join((getattr(exc, "sqlite_errorname", None) or "").split("_")[:2])
-                    if code not in ("SQLITE_CANTOPEN", "SQLITE_READONLY"):
+                    wal = self.db_path.with_name(DB_NAME + "-wal")
+                    if code not in ("SQLITE_CANTOPEN", "SQLITE_READONLY", "SQLITE_IOERR") or \
+                            (wal.exists() and wal.stat().st_size > 0):
                         raise
                     conn = sqlite3.connect(uri + "?mode=ro&immutable=1", uri=True, isolation_level=None)
                     conn.execute("PRAGMA user_version").fetchone()
