@@ -93,3 +93,13 @@ def test_pipeline_scan_keep_spelling_counts_the_word_as_written(tiny_essays, tin
         paths = write_reports(ws, "c", "t", tmp_path / "out", today="2026-01-01")
     text = paths.overview.read_text(encoding="utf-8")
     assert "--keep-spelling intrested" in text and "Kept as written at your request" in text
+
+
+def test_patterns_british_spellings_are_grouped_with_the_american_reference(words):
+    lexicon = {("summarize", "VERB"): 20, ("organized", "ADJ"): 12, ("base", "VERB"): 30}
+    assert "summarise" in words  # a word, yet the same word as "summarize"
+    assert typo_map([("summarise", "VERB"), ("abase", "VERB")], lexicon, words=words) == {
+        ("summarise", "VERB"): ("summarize", "VERB")}
+    assert participle_map([("organise", "VERB", "organised")], lexicon, words=words, known_zipf=5) == {
+        ("organise", "VERB"): ("organized", "ADJ")}
+    assert typo_map([("summarise", "VERB")], lexicon, words=words, keep={"summarise"}) == {}

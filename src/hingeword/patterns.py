@@ -8,6 +8,7 @@ base of the learner-vs-reference comparison.
 
 from __future__ import annotations
 
+import re
 from collections import Counter, defaultdict
 from collections.abc import Collection, Iterable, Mapping
 from dataclasses import replace
@@ -36,6 +37,22 @@ KNOWN_ZIPF = 3.0
 TYPO_RATIO = 85.0
 #: Known lemmas need this many tokens in the reference to be a grouping target.
 MIN_TARGET_TOKENS = 5
+
+
+#: British and American spellings of one word ("summarise"/"summarize", "colour"/"color",
+#: "centre"/"center", "travelled"/"traveled", "defence"/"defense"): these are rewritten
+#: to one form before two lemmas are compared as spelling variants (common spelling
+#: correspondences, from memory).
+_VARIANTS = ((r"is(e|ed|es|ing|ation|ations)$", r"iz\1"), (r"ys(e|ed|es|ing)$", r"yz\1"), (r"our", "or"),
+             (r"tre$", "ter"), (r"ll", "l"), (r"ae", "e"), (r"oe", "e"), (r"ence$", "ense"), (r"ogue$", "og"))
+
+
+def spelling_key(word: str) -> str:
+    """``word`` with British spellings rewritten to American ones (see ``_VARIANTS``)."""
+    out = word.lower()
+    for pattern, repl in _VARIANTS:
+        out = re.sub(pattern, repl, out)
+    return out
 
 
 def count_patterns(attachments: Iterable[Attachment]) -> pd.DataFrame:
@@ -67,7 +84,9 @@ def typo_map(
 
     Only a form that is not a word itself is grouped: a lemma in the reference, in
     ``words`` or common in wordfreq stays as written, and so does one the teacher
-    keeps (``keep``, from ``scan --keep-spelling``).
+    keeps (``keep``, from ``scan --keep-spelling``). The one exception is a spelling
+    variant of a known lemma (:func:`spelling_key`: "summarise" is counted as
+    "summarize" of an American reference): the same word, spelt another way.
 
     :param lemmas: the class's (lemma, POS) governors.
     :param lexicon: (lemma, POS) -> tokens in the reference.
@@ -83,11 +102,17 @@ def typo_map(
             targets[pos].append(lemma)
     for pos in targets:
         targets[pos].sort()
+    variants = {(spelling_key(lem), pos): lem for pos, lems in targets.items() for lem in lems}
     out: GovernorMap = {}
     for lemma, pos in sorted(set(lemmas)):
         if not lemma.isalpha() or len(lemma) < 4 or lexicon.get((lemma, pos), 0) > 0:
             continue
-        if lemma.lower() in words or lemma.lower() in keep or zipf_frequency(lemma, "en") >= known_zipf:
+        if lemma.lower() in keep or zipf_frequency(lemma, "en") >= known_zipf:
+            continue
+        if lemma.lower() in words:  # a word: grouped only under another spelling of itself
+            other = variants.get((spelling_key(lemma), pos))
+            if other is not None and other != lemma:
+                out[(lemma, pos)] = (other, pos)
             continue
         best = process.extractOne(lemma, targets.get(pos, []), scorer=fuzz.ratio, score_cutoff=ratio)
         if best is not None:
@@ -121,6 +146,7 @@ def participle_map(
     from wordfreq import zipf_frequency
 
     adjectives = sorted(lem for (lem, pos), n in lexicon.items() if pos == "ADJ" and n >= MIN_TARGET_TOKENS and lem.isalpha())
+    variant_adjectives = {spelling_key(a): a for a in adjectives}
     out: GovernorMap = {}
     for lemma, pos, surface in sorted(set(items)):
         form = surface.lower()
@@ -128,7 +154,12 @@ def participle_map(
             continue
         if zipf_frequency(form, "en") >= known_zipf or (lemma, pos) in out:
             continue
-        if any(w in words or w in keep for w in (lemma.lower(), form)):
+        if any(w in keep for w in (lemma.lower(), form)):
+            continue
+        if any(w in words for w in (lemma.lower(), form)):  # a word: only another spelling of itself
+            other = variant_adjectives.get(spelling_key(form))
+            if other is not None and other != form:
+                out[(lemma, pos)] = (other, "ADJ")
             continue
         best = process.extractOne(form, adjectives, scorer=fuzz.ratio, score_cutoff=ratio)
         if best is not None:
