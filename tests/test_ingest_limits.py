@@ -237,13 +237,30 @@ def test_ingest_fifo_socket_and_device_link_are_skipped(tmp_path):
 
 
 def test_ingest_unreadable_file_is_skipped(tmp_path):
-    if os.geteuid() == 0:
-        pytest.skip("root reads files whatever their permissions")
+    """Read by a process that permissions apply to (as root: without the capabilities that
+    override them, through ``setpriv``; skipped where that cannot be done)."""
+    import json
+    import shutil
+    import subprocess
+    import sys
+
     folder = _folder(tmp_path)
     (folder / "locked.txt").write_text(GOOD + " More.", encoding="utf-8")
     (folder / "locked.txt").chmod(0)
+    code = ("import json, sys\nfrom hingeword.ingest import read_essays\nr = read_essays(sys.argv[1])\n"
+            "print(json.dumps([[e.essay_id for e in r.essays], [[s.source, s.reason] for s in r.skipped]]))")
+    cmd = [sys.executable, "-c", code, str(folder)]
+    if os.geteuid() == 0:
+        if shutil.which("setpriv") is None:
+            pytest.skip("running as root without setpriv: permissions cannot be applied")
+        cmd = [shutil.which("setpriv"), "--bounding-set", "-dac_override,-dac_read_search", "--", *cmd]
     try:
-        reason = _only_skip(read_essays(folder), "locked.txt")
+        proc = subprocess.run(cmd, capture_output=True, text=True, timeout=120)
     finally:
         (folder / "locked.txt").chmod(0o600)
-    assert reason == "could not be read: Permission denied"
+    if proc.returncode != 0 and "Operation not permitted" in proc.stderr:
+        pytest.skip(f"cannot drop privileges here: {proc.stderr.strip()[:200]}")
+    assert proc.returncode == 0, proc.stderr
+    essays, skipped = json.loads(proc.stdout)
+    assert essays == ["good.txt"]
+    assert skipped == [["locked.txt", "could not be read: Permission denied"]]
