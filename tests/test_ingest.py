@@ -226,7 +226,8 @@ def _zip_without_docx_parts() -> bytes:
     ("broken.odt", b"PK\x03\x04 truncated",
      "could not be read as .odt: not a .odt file (damaged, or another format renamed)"),
     ("other.docx", _zip_without_docx_parts(),
-     "could not be read as .docx: There is no item named '[Content_Types].xml' in the archive"),
+     "could not be read as .docx: not a .docx document: it has no word/document.xml "
+     "(damaged, or another format renamed)"),
     (".DS_Store", b"\x00\x00\x00\x01Bud1", "system file"),
     ("Thumbs.db", b"\xd0\xcf\x11\xe0", "system file"),
     ("desktop.ini", b"[.ShellClassInfo]", "system file"),

@@ -8,6 +8,7 @@ hand-made gold Universal Dependencies parses, so its counts are exact).
 from __future__ import annotations
 
 import gzip
+import hashlib
 import json
 import shutil
 from collections import Counter
@@ -263,11 +264,19 @@ def test_reference_damaged_gzip_without_checksum(conllu_ref_path, tmp_path, dama
     assert "\n" not in msg
 
 
+def _replace_data(ref: Path, name: str, raw: bytes) -> None:
+    """Write a data file and record its checksum, as a (hand-edited) reference would."""
+    data = gzip.compress(raw)
+    (ref / name).write_bytes(data)
+    man = json.loads((ref / "manifest.json").read_text(encoding="utf-8"))
+    man["files"][name] = hashlib.sha256(data).hexdigest()
+    (ref / "manifest.json").write_text(json.dumps(man), encoding="utf-8")
+
+
 def test_reference_malformed_row_names_file(conllu_ref_path, tmp_path):
     ref = Path(shutil.copytree(conllu_ref_path, tmp_path / "gold"))
-    _drop_checksums(ref)
     raw = b"governor\tgovernor_pos\tpreposition\tcount\ntalk\tVERB\tabout\tmany\n"
-    (ref / "patterns.tsv.gz").write_bytes(gzip.compress(raw))
+    _replace_data(ref, "patterns.tsv.gz", raw)
     with pytest.raises(ReferenceDataError, match=r"patterns\.tsv\.gz has a malformed row: \['talk', 'VERB', 'about', 'many'\]$"):
         reference.load(ref)
 

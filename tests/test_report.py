@@ -214,10 +214,11 @@ def normalise(html: str) -> str:
 
 
 def test_report_slugify_makes_safe_folder_names():
-    assert slugify("Evening B2") == "evening-b2"
-    assert slugify("2026 Spring") == "2026-spring"
-    assert slugify("Évening/B2 ../..") == "evening-b2"
-    assert slugify("///") == "unnamed"
+    assert slugify("evening-b2") == "evening-b2"  # a plain name is its own folder name
+    assert re.fullmatch(r"evening-b2-[0-9a-f]{8}", slugify("Evening B2"))  # changed: a hash of the name added
+    assert re.fullmatch(r"2026-spring-[0-9a-f]{8}", slugify("2026 Spring"))
+    assert re.fullmatch(r"évening-b2-[0-9a-f]{8}", slugify("Évening/B2 ../.."))
+    assert re.fullmatch(r"unnamed-[0-9a-f]{8}", slugify("///"))
 
 
 def test_report_figures_rounded_for_reading():
@@ -377,7 +378,7 @@ def test_report_overview_context_rows_flagged_first_with_figures(data):
                                  "date": "2025-12-15"}]
     assert ("Different writers a pattern needs", "2") in ctx["thresholds"]
     assert ctx["reference"]["parts"][0]["limits"].startswith("American English printed in 1961")
-    assert ctx["skipped"] == [{"source": "notes.pdf", "reason": "not an essay: .pdf files are not read"}]
+    assert ctx["skipped"] == [{"source": "file 1 (.pdf)", "reason": "not an essay: .pdf files are not read"}]
     assert ctx["show_essay_ids"] is False
 
 
@@ -397,7 +398,7 @@ def test_report_students_context_one_sheet_per_writer(data):
 
 
 def test_report_write_reports_paths_and_csv(written, tmp_path):
-    folder = tmp_path / "out" / "evening-b2" / "2026-spring"
+    folder = tmp_path / "out" / slugify(CLASS) / slugify(TERM)
     assert written.folder == folder
     for p in (written.handout, written.handout_teacher, written.overview, written.students, written.patterns_csv):
         assert p.parent == folder and p.stat().st_size > 0
@@ -478,7 +479,7 @@ def test_report_overview_headings_tables_and_caution(written):
     assert soup.title.get_text() == "Teacher overview: Evening B2, 2026 Spring"
     h2 = [h.get_text() for h in soup.find_all("h2")]
     assert h2 == ["Read this first", "At a glance", "Flagged patterns", "All patterns", "Dismissed patterns",
-                  "Essays skipped", "Notes from the scan", "How this was measured"]
+                  "Spelling groups", "Essays skipped", "Notes from the scan", "How this was measured"]
     assert "Flags are candidates for your judgement, not verdicts." in soup.find("aside", class_="caution").get_text()
     table = soup.find("table", class_="figures")
     assert [th.get_text() for th in table.thead.find_all("th")] == [
@@ -488,7 +489,8 @@ def test_report_overview_headings_tables_and_caution(written):
     assert table.find_parent("div", class_="table-wrap")["tabindex"] == "0"
     text = text_of(written.overview)
     assert "'discussion about' 37 times" in text
-    assert "notes.pdf" in text and "not an essay: .pdf files are not read" in text
+    assert "file 1 (.pdf)" in text and "not an essay: .pdf files are not read" in text
+    assert "notes.pdf" not in text and "File names are hidden here" in text
     assert "'emphasise' (VERB) grouped under 'emphasize'" in text
     assert "Limits: American English printed in 1961" in text
 
@@ -590,7 +592,7 @@ def test_report_write_trends_page_with_inline_charts(ws, tmp_path):
         "reference": REFERENCE}, essays=essays, skipped=[], notes=[], attachments=atts,
         records=[fig("discuss", "VERB", "about", 2, 2, 2, 1, 320, 20.0, 8.0, 300.0, "over-used")])
     path = write_trends(ws, CLASS, tmp_path / "out", today=TODAY)
-    assert path == tmp_path / "out" / "evening-b2" / "trends.html"
+    assert path == tmp_path / "out" / slugify(CLASS) / "trends.html"
     soup = soup_of(path)
     assert soup.title.get_text() == "Trends across terms: Evening B2"
     assert not soup.find_all("script") and len(soup.find_all("svg")) >= 2

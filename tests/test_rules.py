@@ -45,7 +45,7 @@ def build():
 def test_rules_bundled_load_without_problems(bundled):
     assert bundled.problems == []
     assert bundled_rules_dir().joinpath("directional.tsv").is_file()
-    assert len(bundled.sources) >= 3 + 6  # three tables and the L1 files
+    assert len(bundled.sources) >= 4 + 6  # four tables and the L1 files
 
 
 def test_rules_bundled_derived_nouns(bundled):
@@ -332,7 +332,8 @@ def test_rules_build_main_is_reproducible_and_loadable(build, fixture_dir, tmp_p
         assert build.main(["--wordnet-dir", str(fixture_dir), "--out", str(out), "--date", "2000-01-01"]) == 0
         outputs.append({p.name: p.read_bytes() for p in sorted(out.iterdir())})
     assert outputs[0] == outputs[1]
-    assert sorted(outputs[0]) == ["LICENSE-WordNet.txt", "PROVENANCE.md", "derived_nouns.tsv", "related_words.tsv"]
+    assert sorted(outputs[0]) == ["LICENSE-WordNet.txt", "PROVENANCE.md", "derived_nouns.tsv", "related_words.tsv",
+                                  "words.tsv"]
     assert b"Invented licence header of a test fixture.  \nSecond line.\n" in outputs[0]["LICENSE-WordNet.txt"]
     assert b"2000-01-01" in outputs[0]["PROVENANCE.md"]
     rules = load_rules([tmp_path / "out1"])

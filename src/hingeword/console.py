@@ -43,6 +43,8 @@ def scan_summary(result, top: int) -> list[str]:
     for (lemma, pos), (known, known_pos) in sorted(result.typo_groups.items()):
         target = f"'{known}'" if known_pos == pos else f"'{known}' ({known_pos})"
         lines.append(f"  spelling: '{lemma}' ({pos}) counted as {target}")
+    if result.typo_groups:
+        lines.append("  (a word right as written: scan again with --keep-spelling WORD; the overview lists them all)")
     records = result.records
     used = [r for r in records if r.learner_count > 0]
     flagged = [r for r in records if r.flagged]

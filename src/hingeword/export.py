@@ -10,6 +10,7 @@ suggestion`` — then the further columns of :data:`hingeword.record.COLUMNS`.
 
 from __future__ import annotations
 
+import io
 import json
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -86,7 +87,11 @@ def _write_xlsx(df: pd.DataFrame, path: Path, sheet: str) -> None:
         for cell in cells:
             if isinstance(cell.value, str):
                 cell.data_type = "s"
-    wb.save(path)
+    # built in memory and written in one piece: a full disk is then one clean OSError, not a
+    # half-closed zip file that complains again when it is garbage-collected
+    buf = io.BytesIO()
+    wb.save(buf)
+    path.write_bytes(buf.getvalue())
 
 
 def kwic(attachments: list[Attachment], texts: dict[str, str], width: int = 40) -> list[tuple[str, str, str, str, str]]:
@@ -144,7 +149,7 @@ def export_run(workspace: str | Path, class_name: str, term: str, output: str | 
     for target in (output, concordance):
         if target is not None and Path(target).suffix.lower() not in SUFFIXES:
             raise HingewordError(f"cannot export to '{Path(target).name}': use a file ending in .csv, .xlsx or .json")
-    with Workspace(workspace, create=False) as ws:
+    with Workspace(workspace, read_only=True) as ws:
         view = load_run_view(ws, class_name, term, progress=False)
     path = write_table(records_frame(view.records), output)
     if concordance is None:
@@ -165,7 +170,7 @@ def concordance_lines(workspace: str | Path, class_name: str, term: str, governo
     from .history import Workspace
     from .record import key_label
 
-    with Workspace(workspace, create=False) as ws:
+    with Workspace(workspace, read_only=True) as ws:
         run = ws.run(class_name, term)
         atts = ws.attachments(run.id, key=(governor.lower(), None, preposition.lower()))
         if not atts:

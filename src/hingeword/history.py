@@ -7,16 +7,39 @@ transaction; opening a newer one is refused.
 
 Every scan replaces its (class, term) run inside one ``BEGIN IMMEDIATE``
 transaction, so a scan killed half-way leaves the previous run intact.
+
+Safety rules (issue 15):
+
+* A new database is built complete under a temporary name and linked into place, so
+  ``hingeword.sqlite`` is either absent or a whole workspace; several processes may
+  create the same workspace at once (one wins, the others open it). Migrations run
+  under the write lock and re-read the schema version there.
+* A file that is not a hingeword database (0 bytes, garbage, truncated, another
+  program's database) is never written to or replaced: opening it is a one-line
+  :class:`~hingeword.errors.WorkspaceError` that names the file, the backup and what to do.
+* ``read_only=True`` (report, export, trends, concordance) opens the database with
+  SQLite's ``mode=ro`` (``immutable=1`` on a read-only file system), so reading never
+  writes; only an older schema needs writing, and on a read-only workspace that is
+  a clear message instead.
+* A second writer waits for the first (SQLite's busy timeout, :data:`BUSY_TIMEOUT`
+  seconds) and then gets "workspace busy"; a full disk, a read-only folder and a
+  damaged file are one-line errors too (:func:`_explain`), never tracebacks.
+* After each stored run the database is copied to ``hingeword.sqlite.bak`` (SQLite's
+  online backup, written under a temporary name and renamed).
 """
 
 from __future__ import annotations
 
+import contextlib
 import datetime as _dt
+import functools
 import json
 import logging
-import shutil
+import os
+import secrets
 import sqlite3
-from collections.abc import Iterable, Sequence
+import urllib.parse
+from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass, fields
 from pathlib import Path
 
@@ -28,6 +51,11 @@ from .record import Decision, PatternRecord
 log = logging.getLogger("hingeword")
 
 DB_NAME = "hingeword.sqlite"
+#: The copy of the database made after each stored run.
+BACKUP_NAME = DB_NAME + ".bak"
+#: Seconds a writer waits for another process's write to finish before "workspace busy".
+BUSY_TIMEOUT = 30.0
+_SQLITE_HEADER = b"SQLite format 3\x00"
 
 MIGRATIONS: list[tuple[str, str]] = [
     (
@@ -201,32 +229,103 @@ def _now() -> str:
     return _dt.datetime.now(_dt.timezone.utc).replace(microsecond=0).isoformat()
 
 
+def _explain(exc: sqlite3.Error, db_path: Path) -> WorkspaceError | None:
+    """A one-line :class:`WorkspaceError` for a database fault the user can act on, else ``None``.
+
+    Keyed on SQLite's primary result code (``sqlite_errorname``, Python 3.11+): busy or
+    locked, read-only, full, I/O error, cannot open, corrupt, not a database.
+    """
+    name = (getattr(exc, "sqlite_errorname", None) or "").split("_")
+    code = "_".join(name[:2]) if len(name) >= 2 else ""
+    text = str(exc)
+    if code in ("SQLITE_BUSY", "SQLITE_LOCKED") or "database is locked" in text:
+        return WorkspaceError(f"workspace busy: another hingeword command is writing to {db_path}; "
+                              "try again when it has finished")
+    if code == "SQLITE_READONLY" or "readonly database" in text:
+        return WorkspaceError(f"workspace {db_path} is read-only: this command needs to write to it; make the "
+                              "folder writable or copy the workspace to a writable place (nothing was changed)")
+    if code == "SQLITE_FULL" or "disk is full" in text:
+        return WorkspaceError(f"cannot write {db_path}: the disk is full; nothing was changed "
+                              "(free some space and run the command again)")
+    if code == "SQLITE_IOERR":
+        return WorkspaceError(f"cannot read or write {db_path}: disk I/O error ({text}); nothing was changed "
+                              "(check the disk: full, removed or failing)")
+    if code == "SQLITE_CANTOPEN" and db_path.exists() and not os.access(db_path.parent, os.W_OK):
+        return WorkspaceError(f"workspace {db_path} is on a read-only folder or disk: this command needs to write "
+                              "to it; make it writable or copy the workspace to a writable place (nothing was changed)")
+    if code == "SQLITE_CANTOPEN":
+        return WorkspaceError(f"cannot open {db_path} ({text}): check that the folder exists and can be read")
+    if code in ("SQLITE_CORRUPT", "SQLITE_NOTADB") or "malformed" in text or "not a database" in text:
+        return damaged(db_path, text)
+    return None
+
+
+def damaged(db_path: Path, what: str) -> WorkspaceError:
+    """The error for a database file that cannot be used, naming the backups and what to do."""
+    backups = sorted(db_path.parent.glob(DB_NAME + "*.bak"), key=lambda p: (p.name != BACKUP_NAME, p.name))
+    if backups:
+        advice = (f"restore the backup {backups[0]} (copy it to {db_path.name} after moving the damaged file "
+                  "away), or move the damaged file away to start a new workspace")
+    else:
+        advice = "no backup found: move the file away to start a new workspace (your essay files are not affected)"
+    return WorkspaceError(f"workspace database {db_path} is damaged or not a hingeword database ({what}); "
+                          f"it was left untouched; {advice}")
+
+
+def _translated(fn: Callable) -> Callable:
+    """Turn database faults the user can act on into one-line :class:`WorkspaceError`\\ s."""
+
+    @functools.wraps(fn)
+    def wrapper(self, *args, **kwargs):
+        try:
+            return fn(self, *args, **kwargs)
+        except sqlite3.Error as exc:
+            explained = _explain(exc, self.db_path)
+            if explained is None:
+                raise
+            raise explained from exc
+
+    return wrapper
+
+
 class Workspace:
     """A workspace folder: ``hingeword.sqlite``, ``cache/`` (parses), ``references/``, reports.
 
     It stores runs and returns them as records (:class:`RunInfo`, :class:`~hingeword.ingest.Essay`,
     :class:`~hingeword.extract.Attachment`, :class:`~hingeword.record.PatternRecord`); what
     they mean across terms is the trends stage's business.
+
+    :param create: make the folder and a new database when they do not exist.
+    :param read_only: open the database without writing to it (commands that only read).
     """
 
-    def __init__(self, root: str | Path, *, create: bool = True):
+    def __init__(self, root: str | Path, *, create: bool = True, read_only: bool = False):
         self.root = Path(root)
+        self.db_path = self.root / DB_NAME
+        self.read_only = read_only
+        create = create and not read_only
         if not self.root.exists():
             if not create:
                 raise WorkspaceError(f"no workspace at {self.root} (run 'hingeword scan' first)")
-            self.root.mkdir(parents=True)
-        self.db_path = self.root / DB_NAME
-        if not create and not self.db_path.exists():
-            raise WorkspaceError(f"no hingeword database in {self.root} (run 'hingeword scan' first)")
-        self.conn = sqlite3.connect(self.db_path, isolation_level=None, timeout=30)
-        self.conn.row_factory = sqlite3.Row
-        self.conn.execute("PRAGMA foreign_keys = ON")
+            try:
+                self.root.mkdir(parents=True, exist_ok=True)  # another process may make it too
+            except OSError as exc:
+                raise WorkspaceError(f"cannot create the workspace folder {self.root}: {exc.strerror or exc}") from None
+        if not self.db_path.exists() and not self.db_path.is_symlink():
+            if not create:
+                raise WorkspaceError(f"no hingeword database in {self.root} (run 'hingeword scan' first)")
+            self._create_database()
+        self._check_file()
+        self.conn = self._connect()
         try:
             self._migrate()
-        except BaseException:
+            if not read_only:
+                self.conn.execute("PRAGMA journal_mode = WAL")
+        except BaseException as exc:
             self.conn.close()
+            if isinstance(exc, sqlite3.Error) and _explain(exc, self.db_path) is not None:
+                raise _explain(exc, self.db_path) from exc
             raise
-        self.conn.execute("PRAGMA journal_mode = WAL")
 
     @property
     def cache_dir(self) -> Path:
@@ -241,28 +340,124 @@ class Workspace:
     def __exit__(self, *exc):
         self.close()
 
+    # ---------------------------------------------------------------- opening
+    def _check_file(self) -> None:
+        """Refuse a file that is not an SQLite database before SQLite touches it."""
+        try:
+            size = self.db_path.stat().st_size
+            with open(self.db_path, "rb") as fh:
+                head = fh.read(len(_SQLITE_HEADER))
+        except OSError as exc:
+            raise WorkspaceError(f"cannot read {self.db_path}: {exc.strerror or exc}") from None
+        if size == 0:
+            raise damaged(self.db_path, "the file is empty, 0 bytes")
+        if head != _SQLITE_HEADER:
+            raise damaged(self.db_path, "no SQLite header")
+
+    def _connect(self) -> sqlite3.Connection:
+        """A connection: read-write, or ``mode=ro`` (``immutable=1`` where not even the
+        shared-memory file of WAL mode can be created, i.e. a read-only file system)."""
+        try:
+            if not self.read_only:
+                conn = sqlite3.connect(self.db_path, isolation_level=None, timeout=BUSY_TIMEOUT)
+                conn.execute("PRAGMA user_version").fetchone()
+            else:
+                uri = "file:" + urllib.parse.quote(str(self.db_path.resolve()))
+                try:
+                    conn = sqlite3.connect(uri + "?mode=ro", uri=True, isolation_level=None, timeout=BUSY_TIMEOUT)
+                    conn.execute("PRAGMA user_version").fetchone()
+                except sqlite3.OperationalError as exc:
+                    # WAL mode needs a shared-memory file beside the database; on a read-only
+                    # folder or disk it cannot be made (CANTOPEN, READONLY_DIRECTORY): nobody
+                    # can write there either, so the file is read as immutable.
+                    # Also a full disk (IOERR). Immutable reading ignores a write-ahead log, so
+                    # it is used only when there is none with content.
+                    code = "_".join((getattr(exc, "sqlite_errorname", None) or "").split("_")[:2])
+                    wal = self.db_path.with_name(DB_NAME + "-wal")
+                    if code not in ("SQLITE_CANTOPEN", "SQLITE_READONLY", "SQLITE_IOERR") or \
+                            (wal.exists() and wal.stat().st_size > 0):
+                        raise
+                    conn = sqlite3.connect(uri + "?mode=ro&immutable=1", uri=True, isolation_level=None)
+                    conn.execute("PRAGMA user_version").fetchone()
+        except sqlite3.Error as exc:
+            explained = _explain(exc, self.db_path)
+            if explained is None:
+                raise
+            raise explained from exc
+        conn.row_factory = sqlite3.Row
+        conn.execute("PRAGMA foreign_keys = ON")
+        return conn
+
+    def _create_database(self) -> None:
+        """Build a complete new database under a temporary name, then link it into place.
+
+        ``os.link`` fails when the name exists, so a database another process created
+        meanwhile is kept and opened instead; the temporary files are always removed.
+        """
+        tmp = self.db_path.with_name(f".{DB_NAME}.{os.getpid()}.{secrets.token_hex(4)}.new")
+        try:
+            conn = sqlite3.connect(tmp, isolation_level=None)
+            try:
+                conn.execute("PRAGMA journal_mode = WAL")
+                conn.execute("BEGIN IMMEDIATE")
+                for _name, sql in MIGRATIONS:
+                    for stmt in _statements(sql):
+                        conn.execute(stmt)
+                conn.execute(f"PRAGMA user_version = {schema_version()}")
+                conn.execute("COMMIT")
+            finally:
+                conn.close()
+            try:
+                os.link(tmp, self.db_path)
+            except FileExistsError:
+                log.debug("workspace database %s was created by another process", self.db_path)
+            except OSError:  # a file system without hard links: rename, unless one appeared meanwhile
+                if not self.db_path.exists():
+                    os.replace(tmp, self.db_path)
+        except sqlite3.Error as exc:
+            explained = _explain(exc, self.db_path)
+            if explained is None:
+                raise
+            raise explained from exc
+        except OSError as exc:
+            raise WorkspaceError(f"cannot create {self.db_path}: {exc.strerror or exc}") from None
+        finally:
+            for suffix in ("", "-wal", "-shm", "-journal"):
+                with contextlib.suppress(OSError):
+                    os.unlink(f"{tmp}{suffix}")
+
     # ---------------------------------------------------------------- schema
+    @_translated
     def version(self) -> int:
         return self.conn.execute("PRAGMA user_version").fetchone()[0]
 
-    def _migrate(self) -> None:
-        current = self.version()
+    def _check_not_newer(self, current: int) -> None:
         target = schema_version()
         if current > target:
             raise WorkspaceError(
                 f"workspace {self.root} has schema version {current}, newer than this hingeword "
                 f"understands ({target}); upgrade hingeword"
             )
+        if current == 0 and self.conn.execute("SELECT COUNT(*) FROM sqlite_master").fetchone()[0]:
+            raise damaged(self.db_path, "an SQLite database of another program, with no hingeword schema version")
+
+    def _migrate(self) -> None:
+        current = self.version()
+        target = schema_version()
+        self._check_not_newer(current)
         if current == target:
             return
+        if self.read_only:
+            self._upgrade_for_reading(current)
+            return
         if current > 0:
-            backup = self.db_path.with_name(f"{DB_NAME}.v{current}.bak")
-            self.conn.execute("PRAGMA wal_checkpoint(FULL)")
-            shutil.copy2(self.db_path, backup)
-            log.info("workspace schema %d -> %d; backup written to %s", current, target, backup)
-        # executescript commits implicitly, so run each statement in our own transaction.
+            self._write_backup(self.db_path.with_name(f"{DB_NAME}.v{current}.bak"))
+        # executescript commits implicitly, so run each statement in our own transaction;
+        # the version is read again under the write lock: another process may have migrated.
         self.conn.execute("BEGIN IMMEDIATE")
         try:
+            current = self.version()
+            self._check_not_newer(current)
             for name, sql in MIGRATIONS[current:]:
                 for stmt in _statements(sql):
                     self.conn.execute(stmt)
@@ -272,6 +467,46 @@ class Workspace:
         except BaseException:
             self.conn.execute("ROLLBACK")
             raise
+        if current < target:
+            log.info("workspace schema %d -> %d", current, target)
+
+    def _upgrade_for_reading(self, current: int) -> None:
+        """An older schema opened for reading: upgrade it once through a writing connection,
+        or say clearly that a read-only workspace cannot be upgraded."""
+        self.conn.close()
+        try:
+            Workspace(self.root, create=False).close()
+        except WorkspaceError as exc:
+            raise WorkspaceError(
+                f"workspace {self.root} was written by an older hingeword (schema {current}, this one reads "
+                f"{schema_version()}) and cannot be upgraded: {exc}"
+            ) from None
+        finally:
+            self.conn = self._connect()
+
+    def _write_backup(self, target: Path) -> None:
+        """Copy the database with SQLite's online backup to ``target`` (temporary name, renamed)."""
+        from .files import atomic_path
+
+        with atomic_path(target) as tmp:
+            dest = sqlite3.connect(tmp)
+            try:
+                self.conn.backup(dest)
+            finally:
+                dest.close()
+        log.info("workspace backup written to %s", target)
+
+    def backup(self) -> Path | None:
+        """Copy the database to ``hingeword.sqlite.bak``; a failure (full disk) only logs a warning."""
+        from .errors import HingewordError
+
+        target = self.db_path.with_name(BACKUP_NAME)
+        try:
+            self._write_backup(target)
+        except (HingewordError, sqlite3.Error) as exc:
+            log.warning("workspace backup %s not written: %s", target, exc)
+            return None
+        return target
 
     def _tx(self):
         ws = self
@@ -281,12 +516,22 @@ class Workspace:
                 ws.conn.execute("BEGIN IMMEDIATE")
 
             def __exit__(self_, exc_type, *rest):
-                ws.conn.execute("ROLLBACK" if exc_type else "COMMIT")
+                if exc_type is None:
+                    try:
+                        ws.conn.execute("COMMIT")
+                        return False
+                    except BaseException:
+                        if ws.conn.in_transaction:
+                            ws.conn.execute("ROLLBACK")
+                        raise
+                if ws.conn.in_transaction:
+                    ws.conn.execute("ROLLBACK")
                 return False
 
         return _Tx()
 
     # ------------------------------------------------------------------ runs
+    @_translated
     def replace_run(
         self,
         *,
@@ -333,6 +578,7 @@ class Workspace:
                 [(run_id, *(getattr(a, n) for n in names)) for a in attachments],
             )
             self._insert_records(run_id, records)
+        self.backup()
         return run_id
 
     def _insert_records(self, run_id: int, records: Sequence[PatternRecord]) -> None:
@@ -341,6 +587,7 @@ class Workspace:
             [(run_id, *r.key, json.dumps(_stored_row(r), sort_keys=True)) for r in records],
         )
 
+    @_translated
     def run(self, class_name: str, term: str) -> RunInfo:
         row = self.conn.execute("SELECT * FROM runs WHERE class = ? AND term = ?", (class_name, term)).fetchone()
         if row is None:
@@ -349,11 +596,13 @@ class Workspace:
             raise WorkspaceError(f"no scan of class '{class_name}', term '{term}' in {self.root} (known: {listing})")
         return RunInfo.from_row(row)
 
+    @_translated
     def find_run(self, class_name: str, term: str) -> RunInfo | None:
         """The run of a class and term, or ``None`` when there is none yet."""
         row = self.conn.execute("SELECT * FROM runs WHERE class = ? AND term = ?", (class_name, term)).fetchone()
         return RunInfo.from_row(row) if row is not None else None
 
+    @_translated
     def runs(self, class_name: str | None = None) -> list[RunInfo]:
         if class_name is None:
             rows = self.conn.execute("SELECT * FROM runs ORDER BY class, created").fetchall()
@@ -361,6 +610,7 @@ class Workspace:
             rows = self.conn.execute("SELECT * FROM runs WHERE class = ? ORDER BY created", (class_name,)).fetchall()
         return [RunInfo.from_row(r) for r in rows]
 
+    @_translated
     def runs_in_order(self, class_name: str) -> list[RunInfo]:
         """The runs of a class and of every class linked to it, in term order.
 
@@ -373,6 +623,7 @@ class Workspace:
         ).fetchall()
         return [RunInfo.from_row(r) for r in rows]
 
+    @_translated
     def previous_run(self, class_name: str, term: str) -> RunInfo | None:
         """The run before this one in the class's term order (linked classes included)."""
         run = self.run(class_name, term)
@@ -382,25 +633,30 @@ class Workspace:
         prev = order[order.index(run.id) - 1]
         return next(r for r in self.runs_in_order(class_name) if r.id == prev)
 
+    @_translated
     def essays(self, run_id: int) -> list[Essay]:
         rows = self.conn.execute("SELECT * FROM essays WHERE run_id = ? ORDER BY essay_id", (run_id,)).fetchall()
         return [Essay(essay_id=r["essay_id"], writer=r["writer"], text=r["text"], sha256=r["sha256"],
                       source=r["source"], encoding=r["encoding"], l1=r["l1"], level=r["level"], task=r["task"],
                       meta=tuple(sorted(_json_dict(r["meta"]).items()))) for r in rows]
 
+    @_translated
     def writers(self, run_id: int) -> list[str]:
         """The run's writer ids, sorted."""
         return [r[0] for r in self.conn.execute(
             "SELECT DISTINCT writer FROM essays WHERE run_id = ? ORDER BY writer", (run_id,))]
 
+    @_translated
     def skipped(self, run_id: int) -> list[Skipped]:
         return [Skipped(source=r["source"], reason=r["reason"]) for r in self.conn.execute(
             "SELECT * FROM skipped WHERE run_id = ? ORDER BY source", (run_id,))]
 
+    @_translated
     def notes(self, run_id: int) -> list[Note]:
         return [Note(kind=r["kind"], message=r["message"]) for r in self.conn.execute(
             "SELECT * FROM notes WHERE run_id = ? ORDER BY rowid", (run_id,))]
 
+    @_translated
     def attachments(self, run_id: int, key: tuple[str, str | None, str] | None = None) -> list[Attachment]:
         """A run's attachments in essay order; ``key`` = (governor, POS or None, preposition) selects one pattern."""
         names = [f.name for f in fields(Attachment)]
@@ -418,6 +674,7 @@ class Workspace:
         ).fetchall()
         return [Attachment(**dict(zip(names, r))) for r in rows]
 
+    @_translated
     def records(self, run_id: int) -> list[PatternRecord]:
         """The run's scored patterns as stored (without decisions or comparison)."""
         rows = self.conn.execute(
@@ -425,6 +682,7 @@ class Workspace:
         ).fetchall()
         return [PatternRecord.from_row(json.loads(r[0])) for r in rows]
 
+    @_translated
     def writer_codes(self, class_name: str) -> dict[str, str]:
         """Stable pseudonyms for a class: "S01", "S02", … in order of first appearance.
 
@@ -479,6 +737,7 @@ class Workspace:
                          unused_texts=frozenset(hashes - still))
 
     # ----------------------------------------------------------- class links
+    @_translated
     def link_classes(self, old: str, new: str) -> None:
         """Record that class ``new`` continues class ``old`` (same group of students)."""
         if old == new:
@@ -486,6 +745,7 @@ class Workspace:
         with self._tx():
             self.conn.execute("INSERT OR IGNORE INTO class_links VALUES (?, ?, ?)", (old, new, _now()))
 
+    @_translated
     def class_group(self, class_name: str) -> set[str]:
         """The class and all classes linked to it, directly or through others."""
         links = self.conn.execute("SELECT old, new FROM class_links").fetchall()
@@ -498,6 +758,7 @@ class Workspace:
                     changed = True
         return group
 
+    @_translated
     def require_class(self, class_name: str) -> None:
         """Raise a clear error when no run of the class (or of a class linked to it) exists."""
         if not self.runs_in_order(class_name):
@@ -505,6 +766,7 @@ class Workspace:
             raise WorkspaceError(f"no scans of class '{class_name}' in {self.root} (known: {', '.join(known) or 'none yet'})")
 
     # -------------------------------------------------------------- decisions
+    @_translated
     def dismiss(self, governor: str, preposition: str, *, class_name: str | None, reason: str, on: str | None = None) -> None:
         """Dismiss a pattern for one class (or all classes: ``class_name=None``); persists across terms."""
         scope = class_name or ALL_CLASSES
@@ -515,6 +777,7 @@ class Workspace:
             self.conn.execute("INSERT INTO decision_log VALUES (?, ?, ?, 'dismiss', ?, ?)",
                               (scope, governor.lower(), preposition.lower(), reason, day))
 
+    @_translated
     def restore(self, governor: str, preposition: str, *, class_name: str | None, on: str | None = None) -> bool:
         """Undo a dismissal (for a class: also one made under a class linked to it); False when there was none."""
         scopes = sorted(self.class_group(class_name)) if class_name else [ALL_CLASSES]
@@ -530,6 +793,7 @@ class Workspace:
                                       (scope, governor.lower(), preposition.lower(), day))
         return bool(removed)
 
+    @_translated
     def decisions_for(self, class_name: str) -> dict[tuple[str, str], Decision]:
         """Active dismissals that apply to a class (its own, its group's, and all-class ones)."""
         scopes = sorted(self.class_group(class_name)) + [ALL_CLASSES]

@@ -8,8 +8,9 @@ base of the learner-vs-reference comparison.
 
 from __future__ import annotations
 
+import re
 from collections import Counter, defaultdict
-from collections.abc import Iterable, Mapping
+from collections.abc import Collection, Iterable, Mapping
 from dataclasses import replace
 
 import pandas as pd
@@ -22,10 +23,12 @@ GovernorMap = dict[tuple[str, str], tuple[str, str]]
 
 COLUMNS = ["governor", "governor_pos", "preposition", "learner_count", "learner_writers", "learner_governor_count"]
 
-#: A governor lemma counts as a known word when the reference has it, or when it
-#: is at least this common in general English (wordfreq's Zipf scale: 3.0 = once
-#: per million words). Misspellings learners make ("intrested", "recieve") sit
-#: below 3 on the web-based lists; real words rarer than that are kept as written.
+#: A governor lemma counts as a known word when the reference has it, when it is at
+#: least this common in general English (wordfreq's Zipf scale: 3.0 = once per
+#: million words), or when it is in the word list (``rules/wordnet/words.tsv``,
+#: WordNet's lemmas, plus a teacher's own ``words.tsv``). Misspellings learners make
+#: ("intrested", "recieve") sit below 3 on the web-based lists; so do rare real words
+#: ("abase" 1.6, "aliment" and "alimentation" 1.7), which the word list keeps as written.
 KNOWN_ZIPF = 3.0
 #: rapidfuzz ``fuzz.ratio`` (0–100) a misspelt lemma needs to a known lemma of the
 #: same POS to be grouped under it: 85 joins one slip in a 6–7 letter word
@@ -34,6 +37,22 @@ KNOWN_ZIPF = 3.0
 TYPO_RATIO = 85.0
 #: Known lemmas need this many tokens in the reference to be a grouping target.
 MIN_TARGET_TOKENS = 5
+
+
+#: British and American spellings of one word ("summarise"/"summarize", "colour"/"color",
+#: "centre"/"center", "travelled"/"traveled", "defence"/"defense"): these are rewritten
+#: to one form before two lemmas are compared as spelling variants (common spelling
+#: correspondences, from memory).
+_VARIANTS = ((r"is(e|ed|es|ing|ation|ations)$", r"iz\1"), (r"ys(e|ed|es|ing)$", r"yz\1"), (r"our", "or"),
+             (r"tre$", "ter"), (r"ll", "l"), (r"ae", "e"), (r"oe", "e"), (r"ence$", "ense"), (r"ogue$", "og"))
+
+
+def spelling_key(word: str) -> str:
+    """``word`` with British spellings rewritten to American ones (see ``_VARIANTS``)."""
+    out = word.lower()
+    for pattern, repl in _VARIANTS:
+        out = re.sub(pattern, repl, out)
+    return out
 
 
 def count_patterns(attachments: Iterable[Attachment]) -> pd.DataFrame:
@@ -58,11 +77,21 @@ def typo_map(
     *,
     ratio: float = TYPO_RATIO,
     known_zipf: float = KNOWN_ZIPF,
+    words: Collection[str] = frozenset(),
+    keep: Collection[str] = frozenset(),
 ) -> GovernorMap:
     """Map misspelt governor lemmas to a frequent known lemma of the same POS.
 
+    Only a form that is not a word itself is grouped: a lemma in the reference, in
+    ``words`` or common in wordfreq stays as written, and so does one the teacher
+    keeps (``keep``, from ``scan --keep-spelling``). The one exception is a spelling
+    variant of a known lemma (:func:`spelling_key`: "summarise" is counted as
+    "summarize" of an American reference): the same word, spelt another way.
+
     :param lemmas: the class's (lemma, POS) governors.
     :param lexicon: (lemma, POS) -> tokens in the reference.
+    :param words: known words (lower case), e.g. :attr:`hingeword.rules.Rules.words`.
+    :param keep: lemmas never to group (lower case).
     :returns: ``{(misspelt, pos): (known, pos)}`` for the lemmas that were grouped.
     """
     from wordfreq import zipf_frequency
@@ -73,11 +102,17 @@ def typo_map(
             targets[pos].append(lemma)
     for pos in targets:
         targets[pos].sort()
+    variants = {(spelling_key(lem), pos): lem for pos, lems in targets.items() for lem in lems}
     out: GovernorMap = {}
     for lemma, pos in sorted(set(lemmas)):
         if not lemma.isalpha() or len(lemma) < 4 or lexicon.get((lemma, pos), 0) > 0:
             continue
-        if zipf_frequency(lemma, "en") >= known_zipf:
+        if lemma.lower() in keep or zipf_frequency(lemma, "en") >= known_zipf:
+            continue
+        if lemma.lower() in words:  # a word: grouped only under another spelling of itself
+            other = variants.get((spelling_key(lemma), pos))
+            if other is not None and other != lemma:
+                out[(lemma, pos)] = (other, pos)
             continue
         best = process.extractOne(lemma, targets.get(pos, []), scorer=fuzz.ratio, score_cutoff=ratio)
         if best is not None:
@@ -91,6 +126,8 @@ def participle_map(
     *,
     ratio: float = TYPO_RATIO,
     known_zipf: float = KNOWN_ZIPF,
+    words: Collection[str] = frozenset(),
+    keep: Collection[str] = frozenset(),
 ) -> GovernorMap:
     """Misspelt participial adjectives the tagger reads as verbs.
 
@@ -100,18 +137,29 @@ def participle_map(
     the reference ("interested", "worried", "married"), it is grouped under that
     adjective.
 
+    A lemma or form that is a word (``words``, wordfreq) or that the teacher keeps
+    (``keep``, lemma or form) is left as written.
+
     :param items: (lemma, POS, surface form) of the class's governors.
     :returns: ``{(lemma, "VERB"): (adjective, "ADJ")}``
     """
     from wordfreq import zipf_frequency
 
     adjectives = sorted(lem for (lem, pos), n in lexicon.items() if pos == "ADJ" and n >= MIN_TARGET_TOKENS and lem.isalpha())
+    variant_adjectives = {spelling_key(a): a for a in adjectives}
     out: GovernorMap = {}
     for lemma, pos, surface in sorted(set(items)):
         form = surface.lower()
         if pos != "VERB" or not form.endswith("ed") or not form.isalpha() or lexicon.get((lemma, pos), 0) > 0:
             continue
         if zipf_frequency(form, "en") >= known_zipf or (lemma, pos) in out:
+            continue
+        if any(w in keep for w in (lemma.lower(), form)):
+            continue
+        if any(w in words for w in (lemma.lower(), form)):  # a word: only another spelling of itself
+            other = variant_adjectives.get(spelling_key(form))
+            if other is not None and other != form:
+                out[(lemma, pos)] = (other, "ADJ")
             continue
         best = process.extractOne(form, adjectives, scorer=fuzz.ratio, score_cutoff=ratio)
         if best is not None:
@@ -131,13 +179,20 @@ def regroup(attachments: Iterable[Attachment], mapping: Mapping[tuple[str, str],
     return out
 
 
-def group_governors(attachments: list[Attachment], lexicon: Mapping[tuple[str, str], int]) -> tuple[list[Attachment], GovernorMap]:
+def group_governors(attachments: list[Attachment], lexicon: Mapping[tuple[str, str], int], *,
+                    words: Collection[str] = frozenset(),
+                    keep: Collection[str] = frozenset()) -> tuple[list[Attachment], GovernorMap]:
     """Group misspelt governors (:func:`typo_map`, then :func:`participle_map`) under known lemmas.
 
+    :param words: known words, never grouped (:attr:`hingeword.rules.Rules.words`).
+    :param keep: forms the teacher keeps as written (``scan --keep-spelling``).
     :returns: the regrouped attachments and the grouping applied (for the run's notes).
     """
-    groups = typo_map({(a.governor, a.governor_pos) for a in attachments}, lexicon)
+    keep = frozenset(k.strip().lower() for k in keep)
+    # a kept form may be given as written ("intrested") or as its lemma ("intreste")
+    keep |= {a.governor.lower() for a in attachments if a.governor_text.lower() in keep}
+    groups = typo_map({(a.governor, a.governor_pos) for a in attachments}, lexicon, words=words, keep=keep)
     unmatched = {(a.governor, a.governor_pos, a.governor_text) for a in attachments
                  if (a.governor, a.governor_pos) not in groups}
-    groups.update(participle_map(unmatched, lexicon))
+    groups.update(participle_map(unmatched, lexicon, words=words, keep=keep))
     return regroup(attachments, groups), groups

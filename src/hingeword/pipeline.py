@@ -9,14 +9,14 @@ from __future__ import annotations
 import datetime as _dt
 import logging
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from . import EXTRACTOR_VERSION, __version__
 from .errors import IngestError
 from .extract import extract_doc
 from .history import Workspace
-from .ingest import IngestResult, read_essays
+from .ingest import IngestResult, Skipped, read_essays
 from .parse import ModelInfo, ParseStats, default_processes, load_model, parse_texts
 from .patterns import GovernorMap, count_patterns, group_governors
 from .record import PatternRecord
@@ -55,6 +55,38 @@ def ingest_notes(result: IngestResult) -> list[tuple[str, str]]:
     return notes
 
 
+def _require_essays(ingest: IngestResult, folder, class_name: str, term: str) -> None:
+    """Refuse a scan with no essay to store: the earlier run of the class and term is kept."""
+    if ingest.essays:
+        return
+    reasons = "; ".join(f"{s.source}: {s.reason}" for s in ingest.skipped[:3])
+    more = f" (and {len(ingest.skipped) - 3} more)" if len(ingest.skipped) > 3 else ""
+    raise IngestError(
+        f"no essay could be read from {folder}"
+        + (f" — {len(ingest.skipped)} file(s) skipped: {reasons}{more}" if ingest.skipped else " (no essay files found)")
+        + f"; nothing was stored and any earlier run of {class_name} / {term} is kept"
+    )
+
+
+def within_parser_limit(ingest: IngestResult, max_length: int) -> IngestResult:
+    """Move essays longer than the parser accepts (spaCy's ``nlp.max_length``) to the skipped list.
+
+    Ingest already skips essays over :data:`hingeword.ingest.MAX_ESSAY_CHARS`; a pipeline
+    with a lower limit must not stop the scan with a traceback either.
+    """
+    long = [e for e in ingest.essays if len(e.text) > max_length]
+    if not long:
+        return ingest
+    ids = {e.essay_id for e in long}
+    skipped = list(ingest.skipped) + [
+        Skipped(e.essay_id, f"longer than the parser's limit of {max_length:,} characters ({len(e.text):,}); "
+                            "split it into one essay a file") for e in long]
+    return replace(ingest, essays=[e for e in ingest.essays if e.essay_id not in ids], skipped=skipped,
+                   duplicates=[g for g in (tuple(i for i in grp if i not in ids) for grp in ingest.duplicates)
+                               if len(g) > 1],
+                   near_duplicates=[n for n in ingest.near_duplicates if n.first not in ids and n.second not in ids])
+
+
 def scan(
     folder: str | Path,
     *,
@@ -70,12 +102,15 @@ def scan(
     l1: str | None = None,
     rules_dirs: Sequence[str | Path] = (),
     encoding: str | None = None,
+    keep_spelling: Sequence[str] = (),
     progress: Callable[[int, int], None] | None = None,
     stage: Callable[[str], None] | None = None,
 ) -> ScanResult:
     """Scan one class's essays for one term and store the run in the workspace.
 
     :param thresholds: the flag decision's thresholds (default :class:`~hingeword.score.Thresholds`).
+    :param keep_spelling: forms never grouped under another word as misspellings (as written or
+        their lemma); the overview lists every grouping and this undoes one.
     :param progress: called as ``progress(done, total)`` while parsing.
     :param stage: called with the name of each stage as it starts: ``"read"``, ``"parse"``
         (parsing and extraction, essay by essay), ``"score"``, ``"store"``.
@@ -89,17 +124,12 @@ def scan(
     say = stage or (lambda name: None)
     say("read")
     ingest = read_essays(folder, manifest=manifest, encoding=encoding)
-    if not ingest.essays:
-        reasons = "; ".join(f"{s.source}: {s.reason}" for s in ingest.skipped[:3])
-        more = f" (and {len(ingest.skipped) - 3} more)" if len(ingest.skipped) > 3 else ""
-        raise IngestError(
-            f"no essay could be read from {folder}"
-            + (f" — {len(ingest.skipped)} file(s) skipped: {reasons}{more}" if ingest.skipped else " (no essay files found)")
-            + f"; nothing was stored and any earlier run of {class_name} / {term} is kept"
-        )
+    _require_essays(ingest, folder, class_name, term)
     rules = load_rules([Path(d) for d in rules_dirs])
     reference = ref_mod.load_many(references, workspace)
     nlp, info = load_model(model)
+    ingest = within_parser_limit(ingest, nlp.max_length)
+    _require_essays(ingest, folder, class_name, term)
     ws = Workspace(workspace)
     try:
         stats = ParseStats()
@@ -119,14 +149,15 @@ def scan(
         for essay, doc in zip(ingest.essays, docs):
             attachments.extend(extract_doc(doc, essay.essay_id, essay.writer))
         say("score")
-        attachments, groups = group_governors(attachments, reference.lemmas)
+        keep = sorted({k.strip().lower() for k in keep_spelling if k.strip()})
+        attachments, groups = group_governors(attachments, reference.lemmas, words=rules.words, keep=keep)
         records = score_patterns(count_patterns(attachments), attachments, reference, thresholds)
         l1_of = {e.writer: (e.l1 or l1 or "").strip().lower() for e in ingest.essays}
         records = categorise(records, reference, rules, l1_tallies(attachments, l1_of))
         if term_start is None:  # a re-scan keeps the term's recorded start, so term order holds
             old = ws.find_run(class_name, term)
             term_start = old.term_start if old is not None else _dt.date.today().isoformat()
-        run_settings = {**thresholds.as_dict(), "term_start": term_start, "l1": l1}
+        run_settings = {**thresholds.as_dict(), "term_start": term_start, "l1": l1, "keep_spelling": keep}
         run_meta = {
             "tool_version": __version__,
             "model": info.name,

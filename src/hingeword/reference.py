@@ -100,19 +100,59 @@ def _write_tsv_gz(path: Path, header: Sequence[str], rows: Iterable[Sequence]) -
     return hashlib.sha256(data).hexdigest()
 
 
-def _read_tsv_gz(path: Path, expected_sha: str | None) -> list[list[str]]:
+#: Largest unpacked size of one reference data file, in characters (the bundled Brown
+#: files unpack to under 1 MB; a reference of a hundred million words to some tens of MB).
+#: Reading stops there, so a small gzip that unpacks to gigabytes costs seconds, not memory.
+MAX_UNPACKED_CHARS = 128_000_000
+#: Largest count one row may carry (counts are non-negative integers).
+MAX_COUNT = 10**12
+
+
+def _read_tsv_gz(path: Path, expected_sha: str | None) -> Iterator[list[str]]:
+    """Yield the data rows of a gzipped TSV (header skipped), checked on the way.
+
+    The file must match the sha256 the manifest records (every reference hingeword
+    writes records one; a missing one is refused like a wrong one); it is unpacked as a
+    stream and refused past :data:`MAX_UNPACKED_CHARS`.
+    """
     try:
         data = path.read_bytes()
     except OSError as exc:
         raise ReferenceDataError(f"reference file {path} cannot be read: {exc.strerror}") from None
-    if expected_sha and hashlib.sha256(data).hexdigest() != expected_sha:
+    if not expected_sha:
+        raise ReferenceDataError(f"reference file {path} has no checksum in its manifest.json, so damage "
+                                 "cannot be ruled out; rebuild it")
+    if hashlib.sha256(data).hexdigest() != expected_sha:
         raise ReferenceDataError(f"reference file {path} is corrupt or truncated (checksum mismatch); rebuild it")
+
+    def lines(stream) -> Iterator[str]:
+        size = 0
+        for line in stream:
+            size += len(line)
+            if size > MAX_UNPACKED_CHARS:
+                raise ReferenceDataError(f"reference file {path} unpacks to more than {MAX_UNPACKED_CHARS:,} "
+                                         "characters; it is not a reference hingeword wrote")
+            yield line
+
     try:
-        text = gzip.decompress(data).decode("utf-8")
-    except (OSError, EOFError, UnicodeDecodeError) as exc:
+        with gzip.GzipFile(fileobj=io.BytesIO(data)) as gz:
+            reader = csv.reader(lines(io.TextIOWrapper(gz, encoding="utf-8", newline="")), delimiter="\t")
+            next(reader, None)  # header
+            yield from reader
+    except (OSError, EOFError, UnicodeDecodeError, csv.Error) as exc:
         raise ReferenceDataError(f"reference file {path} is corrupt or truncated ({exc}); rebuild it") from None
-    rows = list(csv.reader(io.StringIO(text), delimiter="\t"))
-    return rows[1:]
+
+
+def _count(text: str, path: Path, row: list[str]) -> int:
+    """A row's count: a non-negative integer up to :data:`MAX_COUNT`, else a one-line error."""
+    try:
+        n = int(text)
+    except ValueError:
+        raise ReferenceDataError(f"reference file {path} has a malformed row: {row!r}") from None
+    if not 0 <= n <= MAX_COUNT:
+        raise ReferenceDataError(f"reference file {path} has a count out of range (not 0 to {MAX_COUNT:,}) "
+                                 f"in the row {row!r}; rebuild it")
+    return n
 
 
 def _is_reference_dir(path: Path) -> bool:
@@ -239,20 +279,22 @@ def load(path: str | Path) -> Reference:
 
 def _load(path: Path) -> Reference:
     manifest = read_manifest(path)
-    files = manifest.get("files", {})
+    files = manifest.get("files")
+    if not isinstance(files, dict):
+        raise ReferenceDataError(f"reference manifest {path / 'manifest.json'} has no list of files with checksums; "
+                                 "rebuild it")
     ref = Reference(manifest=manifest, path=str(path))
-    for row in _read_tsv_gz(path / "patterns.tsv.gz", files.get("patterns.tsv.gz")):
-        try:
-            g, p, prep, n = row
-            ref.patterns[(g, p, prep)] += int(n)
-        except ValueError:
-            raise ReferenceDataError(f"reference file {path / 'patterns.tsv.gz'} has a malformed row: {row!r}") from None
-    for row in _read_tsv_gz(path / "lemmas.tsv.gz", files.get("lemmas.tsv.gz")):
-        try:
-            lem, p, n = row
-            ref.lemmas[(lem, p)] += int(n)
-        except ValueError:
-            raise ReferenceDataError(f"reference file {path / 'lemmas.tsv.gz'} has a malformed row: {row!r}") from None
+    patterns_path, lemmas_path = path / "patterns.tsv.gz", path / "lemmas.tsv.gz"
+    for row in _read_tsv_gz(patterns_path, files.get("patterns.tsv.gz")):
+        if len(row) != 4:
+            raise ReferenceDataError(f"reference file {patterns_path} has a malformed row: {row!r}")
+        g, p, prep, n = row
+        ref.patterns[(g, p, prep)] += _count(n, patterns_path, row)
+    for row in _read_tsv_gz(lemmas_path, files.get("lemmas.tsv.gz")):
+        if len(row) != 3:
+            raise ReferenceDataError(f"reference file {lemmas_path} has a malformed row: {row!r}")
+        lem, p, n = row
+        ref.lemmas[(lem, p)] += _count(n, lemmas_path, row)
     return ref
 
 

@@ -6,6 +6,8 @@ Three kinds of file live in a rules folder (the bundled one is the top-level
 - ``wordnet/derived_nouns.tsv`` (word, pos, noun) and
   ``wordnet/related_words.tsv`` (word, pos, related, relation): lexical
   relations derived from WordNet by ``scripts/build_wordnet_rules.py``;
+- ``wordnet/words.tsv`` (word): words that exist (WordNet's lemmas), which typo
+  grouping never treats as misspellings; a teacher's own ``words.tsv`` adds to it;
 - ``directional.tsv`` (directional, static, note): directional prepositions
   and the static one (or ``-``, none) native writing often uses instead;
 - ``l1/<code>.yaml``: first-language notes written by teachers.
@@ -37,6 +39,7 @@ TABLES = {
     "derived_nouns.tsv": ("word", "pos", "noun"),
     "related_words.tsv": ("word", "pos", "related", "relation"),
     "directional.tsv": ("directional", "static", "note"),
+    "words.tsv": ("word",),
 }
 _L1_KEYS = ("language", "code", "source", "patterns")
 _PATTERN_KEYS = ("governor", "pos", "learner", "native", "note")
@@ -77,6 +80,7 @@ class Rules:
     related: dict[tuple[str, str], tuple[tuple[str, str], ...]] = field(default_factory=dict)
     directional: dict[str, tuple[str, ...]] = field(default_factory=dict)
     l1_notes: dict[str, tuple[L1Note, ...]] = field(default_factory=dict)
+    words: frozenset[str] = frozenset()  # real words: never grouped as misspellings
     problems: list[RuleProblem] = field(default_factory=list)
     sources: list[str] = field(default_factory=list)
 
@@ -118,7 +122,7 @@ def load_rules(extra_dirs: Sequence[Path] = ()) -> Rules:
         files = _rule_files(folder)
         if not files and i > 0:
             acc.problem(folder, 0, "no rule files found (expected l1/*.yaml, directional.tsv, "
-                        "derived_nouns.tsv or related_words.tsv)")
+                        "derived_nouns.tsv, related_words.tsv or words.tsv)")
         stamp = tuple((str(f), f.stat().st_mtime_ns, f.stat().st_size) for f in files)
         acc.merge(_load_folder(stamp))
     for p in acc.rules.problems:
@@ -157,6 +161,7 @@ class _Accumulator:
         self.related: dict[tuple[str, str], dict[tuple[str, str], None]] = {}
         self.directional: dict[str, dict[str, None]] = {}
         self.notes: dict[str, dict[tuple[str, str | None, str], L1Note]] = {}
+        self.words: set[str] = set()
 
     def problem(self, path: Path, line: int, message: str) -> None:
         self.rules.problems.append(RuleProblem(str(path), line, message))
@@ -167,10 +172,14 @@ class _Accumulator:
                              (self.directional, other.directional), (self.notes, other.notes)):
             for key, values in theirs.items():
                 mine.setdefault(key, {}).update(values)
+        self.words |= other.words
         self.rules.problems += other.rules.problems
         self.rules.sources += other.rules.sources
 
     def _add_rows(self, path: Path, rows: list[tuple[int, list[str]]]) -> None:
+        if path.name == "words.tsv":
+            self.words.update(row[0] for _line, row in rows)
+            return
         if path.name == "directional.tsv":
             for _line, (prep, static, _note) in rows:
                 self.directional.setdefault(prep, {})[static] = None
@@ -193,6 +202,7 @@ class _Accumulator:
         r.related = {k: tuple(v) for k, v in self.related.items()}
         r.directional = {k: tuple(v) for k, v in self.directional.items()}
         r.l1_notes = {k: tuple(v.values()) for k, v in self.notes.items()}
+        r.words = frozenset(self.words)
         return r
 
 

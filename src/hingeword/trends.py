@@ -120,6 +120,12 @@ def text_table(tr: Trends) -> list[str]:
 # ------------------------------------------------------------------- charts
 
 
+def plain_label(text: str) -> str:
+    """A chart label drawn as written: ``$`` escaped so matplotlib never reads mathtext
+    (a term named ``$\\badcmd{x}$`` would stop the chart with a parse error)."""
+    return str(text).replace("$", r"\$")
+
+
 def _svg(fig) -> str:
     buf = io.StringIO()
     fig.savefig(buf, format="svg", bbox_inches="tight", metadata={"Date": None, "Creator": None})
@@ -137,13 +143,13 @@ def chart_overview(tr: Trends, top: int = 6) -> str:
     plt.rcParams["svg.hashsalt"] = "hingeword"  # stable ids: reproducible files
     plt.rcParams["svg.fonttype"] = "none"  # text stays text: smaller, searchable, no font outlines
     fig, ax = plt.subplots(figsize=(7, 3.4))
-    labels = [t["term"] for t in tr.terms]
+    labels = [plain_label(t["term"]) for t in tr.terms]
     markers = "osD^vP*X"
     styles = ["-", "--", "-.", ":"]
     shown = [p for p in tr.patterns if not p.dismissed][:top]
     for i, p in enumerate(shown):
         ax.plot(labels, [c.rate for c in p.cells], marker=markers[i % len(markers)],
-                linestyle=styles[i % len(styles)], color="black" if i % 2 == 0 else "#4a5a8a", label=p.label)
+                linestyle=styles[i % len(styles)], color="black" if i % 2 == 0 else "#4a5a8a", label=plain_label(p.label))
     ax.set_ylabel("per 10,000 words")
     ax.set_ylim(bottom=0)
     ax.spines[["top", "right"]].set_visible(False)
@@ -164,7 +170,7 @@ def chart_pattern(tr: Trends, p: PatternTrend) -> str:
     plt.rcParams["svg.hashsalt"] = "hingeword"
     plt.rcParams["svg.fonttype"] = "none"
     fig, ax = plt.subplots(figsize=(2.8, 1.6))
-    labels = [t["term"] for t in tr.terms]
+    labels = [plain_label(t["term"]) for t in tr.terms]
     rates = [c.rate for c in p.cells]
     colors = ["#2f3e6b" if c.flagged else "white" for c in p.cells]
     ax.bar(labels, rates, color=colors, edgecolor="#2f3e6b", hatch=None)

@@ -60,7 +60,7 @@ class RunView:
 
 
 #: Run settings that are facts of the term, not thresholds.
-_RUN_FACTS = ("term_start", "l1")
+_RUN_FACTS = ("term_start", "l1", "keep_spelling")
 
 
 def load_run_view(ws: Workspace, class_name: str, term: str, *, match: bool = False,

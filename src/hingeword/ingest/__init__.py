@@ -25,13 +25,25 @@ from pathlib import Path
 
 from hingeword.errors import IngestError
 
-from .decode import _BOMS, _decode, _docx_text, _normalise, _odt_text, _short, _size
+from .decode import (
+    _BOMS,
+    MAX_ESSAY_CHARS,
+    TooLong,
+    _decode,
+    _docx_text,
+    _normalise,
+    _odt_text,
+    _short,
+    _size,
+    _utf16_without_bom,
+    too_long_reason,
+)
 from .duplicates import _exact_duplicates, _near_duplicates
 from .records import Essay, IngestResult, NearDuplicate, Skipped, _essay, _Found, _Info
 from .tables import _csv_essays
 from .walk import _order_key, _read_manifest, _scan
 
-__all__ = ["SUPPORTED", "Essay", "IngestResult", "NearDuplicate", "Skipped", "read_essays"]
+__all__ = ["MAX_ESSAY_CHARS", "SUPPORTED", "Essay", "IngestResult", "NearDuplicate", "Skipped", "read_essays"]
 
 log = logging.getLogger("hingeword")
 
@@ -41,6 +53,7 @@ _USE = "use .txt, .docx, .odt or .csv"
 
 def read_essays(folder: str | Path, *, manifest: str | Path | None = None,
                 max_bytes: int = 2_000_000,
+                max_chars: int = MAX_ESSAY_CHARS,
                 near_duplicate_threshold: float = 95.0,
                 encoding: str | None = None) -> IngestResult:
     """Read every essay under ``folder``.
@@ -50,6 +63,9 @@ def read_essays(folder: str | Path, *, manifest: str | Path | None = None,
         ``l1``, ``level``, ``task`` and any others) that sets the writer and
         metadata of the files it names. ``file`` is relative to ``folder``.
     :param max_bytes: files larger than this are skipped unread.
+    :param max_chars: essays longer than this many characters are skipped with a
+        reason (:data:`MAX_ESSAY_CHARS`); a .docx/.odt is measured while it is read,
+        which stops at the limit.
     :param near_duplicate_threshold: rapidfuzz ratio (0..100) from which two
         different essays are reported as near-duplicates.
     :param encoding: decode text files that are not UTF-8 with this codec instead of
@@ -65,8 +81,8 @@ def read_essays(folder: str | Path, *, manifest: str | Path | None = None,
             codecs.lookup(encoding)
         except LookupError:
             raise IngestError(f"unknown encoding '{encoding}' (try utf-8, cp1252, cp1250, latin-1)") from None
-    if max_bytes <= 0:
-        raise ValueError("max_bytes must be positive")
+    if max_bytes <= 0 or max_chars <= 0:
+        raise ValueError("max_bytes and max_chars must be positive")
     if not 0 <= near_duplicate_threshold <= 100:
         raise ValueError("near_duplicate_threshold must be between 0 and 100")
     root = Path(folder)
@@ -90,7 +106,7 @@ def read_essays(folder: str | Path, *, manifest: str | Path | None = None,
 
     essays: list[Essay] = []
     for f in found:
-        essays.extend(_read_one(f, max_bytes, manifest_rows.get(f.resolved), skipped, encoding))
+        essays.extend(_read_one(f, max_bytes, manifest_rows.get(f.resolved), skipped, encoding, max_chars))
     skipped.sort(key=lambda s: _order_key(s.source))
     skipped.extend(manifest_skips)
 
@@ -110,7 +126,8 @@ def _default_writer(rel: str) -> str:
 
 
 def _read_one(f: _Found, max_bytes: int, info: _Info | None,
-              skipped: list[Skipped], encoding: str | None = None) -> list[Essay]:
+              skipped: list[Skipped], encoding: str | None = None,
+              max_chars: int = MAX_ESSAY_CHARS) -> list[Essay]:
     """Read one file into essays (several for a CSV table); record problems in ``skipped``."""
     suffix = Path(f.rel).suffix.lower()
     if suffix not in SUPPORTED:
@@ -133,7 +150,10 @@ def _read_one(f: _Found, max_bytes: int, info: _Info | None,
             try:
                 if not zipfile.is_zipfile(f.path):
                     raise ValueError(f"not a {suffix} file (damaged, or another format renamed)")
-                raw = _docx_text(f.path) if kind == "docx" else _odt_text(f.path)
+                raw = _docx_text(f.path, max_chars) if kind == "docx" else _odt_text(f.path, max_chars)
+            except TooLong as exc:
+                skipped.append(Skipped(f.rel, str(exc)))
+                return []
             except Exception as exc:  # noqa: BLE001 - any parser failure is per-file
                 skipped.append(Skipped(f.rel, f"could not be read as {suffix}: {_short(exc)}"))
                 return []
@@ -142,9 +162,12 @@ def _read_one(f: _Found, max_bytes: int, info: _Info | None,
             data = f.path.read_bytes()
             if b"\x00" in data[:8192] and not data.startswith(
                     tuple(b for b, _ in _BOMS)):
-                skipped.append(Skipped(f.rel, "binary file (not text)"))
-                return []
-            decoded = _decode(data, encoding)
+                decoded = _utf16_without_bom(data)
+                if decoded is None:
+                    skipped.append(Skipped(f.rel, "binary file (not text)"))
+                    return []
+            else:
+                decoded = _decode(data, encoding)
     except OSError as exc:
         skipped.append(Skipped(f.rel, f"could not be read: {exc.strerror or exc}"))
         return []
@@ -155,10 +178,13 @@ def _read_one(f: _Found, max_bytes: int, info: _Info | None,
         return []
     text, encoding = decoded
     if suffix == ".csv":
-        return _csv_essays(f.rel, text, encoding, info, skipped)
+        return _csv_essays(f.rel, text, encoding, info, skipped, max_chars)
     text = _normalise(text)
     if not text:
         skipped.append(Skipped(f.rel, "empty file"))
+        return []
+    if len(text) > max_chars:
+        skipped.append(Skipped(f.rel, too_long_reason(len(text), max_chars)))
         return []
     info = info or _Info(_default_writer(f.rel), None, None, None, {})
     return [_essay(f.rel, text, f.rel, encoding, info)]

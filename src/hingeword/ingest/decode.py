@@ -106,6 +106,34 @@ def _decode(data: bytes, forced: str | None = None) -> tuple[str, str] | None:
     return text, name
 
 
+_CONTROL = re.compile(r"[\x00-\x08\x0b\x0e-\x1f]")
+
+
+def _utf16_without_bom(data: bytes) -> tuple[str, str] | None:
+    """Text saved as UTF-16 without a byte-order mark (NUL bytes, yet not binary).
+
+    In UTF-16 the zero bytes of text fall on one side of each two-byte unit (the high
+    byte of ASCII letters, spaces and digits: odd offsets little-endian, even ones
+    big-endian) and almost never on the other; binary data has zeros on both. The
+    first 8 KB decide the byte order; the whole file must then decode strictly, to
+    text with no control characters but tab, newline, carriage return and form feed.
+    """
+    sample = data[:8192]
+    half = len(sample) // 2
+    if len(data) % 2 or half < 2:
+        return None
+    even, odd = sample[0::2].count(0), sample[1::2].count(0)
+    for codec, zeros, others in (("utf-16-le", odd, even), ("utf-16-be", even, odd)):
+        if zeros >= 0.05 * half and others <= 0.005 * half:
+            try:
+                text = data.decode(codec)
+            except UnicodeDecodeError:
+                continue
+            if not _CONTROL.search(text) and not any(unicodedata.category(c) == "Cn" for c in text[:4096]):
+                return text, codec
+    return None
+
+
 def _short(exc: Exception) -> str:
     text = str(exc.args[0]) if isinstance(exc, KeyError) and exc.args else str(exc)
     lines = text.strip().splitlines()
@@ -120,17 +148,95 @@ def _size(n: int) -> str:
     return f"{n} bytes"
 
 
-def _docx_text(path: Path) -> str:
+#: Longest essay read, in characters (about 35,000 words: far longer than an essay, well
+#: under spaCy's default ``max_length`` of 1,000,000). Longer texts are skipped with a reason.
+MAX_ESSAY_CHARS = 200_000
+#: Largest unpacked part of a .docx/.odt (each), and of all parts together: a zip bomb
+#: stops at the zip directory, before anything is unpacked.
+MAX_PART_BYTES = 25_000_000
+MAX_PACKAGE_BYTES = 100_000_000
+#: Most paragraphs and XML elements in a document's text part. The libraries build one
+#: object per node, so a "bomb" of many tiny nodes costs time and memory long before
+#: its text is long; real essays stay far below (a 60-page document: ~3,000 paragraphs).
+MAX_PARAGRAPHS = 20_000
+MAX_ELEMENTS = 250_000
+
+_MAIN_PART = {"docx": "word/document.xml", "odt": "content.xml"}
+_PARAGRAPH = {"docx": {"{http://schemas.openxmlformats.org/wordprocessingml/2006/main}p"},
+              "odt": {"{urn:oasis:names:tc:opendocument:xmlns:text:1.0}p",
+                      "{urn:oasis:names:tc:opendocument:xmlns:text:1.0}h"}}
+
+
+class TooLong(ValueError):
+    """An essay over :data:`MAX_ESSAY_CHARS` characters (the reason says how long)."""
+
+
+def too_long_reason(chars: int, limit: int = MAX_ESSAY_CHARS, *, at_least: bool = False) -> str:
+    size = f"at least {chars:,}" if at_least else f"{chars:,}"
+    return (f"longer than the {limit:,}-character limit for one essay ({size} characters); "
+            "split it into one essay a file")
+
+
+def _check_package(path: Path, kind: str, max_chars: int = MAX_ESSAY_CHARS) -> None:
+    """Check a .docx/.odt before a library parses it, reading as little as needed.
+
+    The zip directory must name the document's text part and promise no more than
+    :data:`MAX_PART_BYTES` per part and :data:`MAX_PACKAGE_BYTES` in all (``zipfile``
+    never unpacks more than a part's directory entry promises). Then the text part is
+    streamed (lxml ``iterparse``; no DTD, entities or network) and the count stops at
+    the first limit passed: text over ``max_chars`` raises :class:`TooLong`; too many
+    paragraphs or elements, ``ValueError``.
+    """
+    import zipfile
+
+    from lxml import etree
+
+    main = _MAIN_PART[kind]
+    with zipfile.ZipFile(path) as z:
+        infos = z.infolist()
+        names = {i.filename for i in infos}
+        if main not in names:
+            raise ValueError(f"not a .{kind} document: it has no {main} (damaged, or another format renamed)")
+        big = max(infos, key=lambda i: i.file_size)
+        if big.file_size > MAX_PART_BYTES:
+            raise ValueError(f"a part unpacks to {_size(big.file_size)}, over the {_size(MAX_PART_BYTES)} limit "
+                             "(a damaged file or a zip bomb)")
+        total = sum(i.file_size for i in infos)
+        if total > MAX_PACKAGE_BYTES:
+            raise ValueError(f"it unpacks to {_size(total)}, over the {_size(MAX_PACKAGE_BYTES)} limit "
+                             "(a damaged file or a zip bomb)")
+        chars = paragraphs = elements = 0
+        with z.open(main) as fh:
+            for _event, el in etree.iterparse(fh, events=("end",), resolve_entities=False, no_network=True,
+                                              load_dtd=False, huge_tree=False, remove_comments=True):
+                elements += 1
+                if el.tag in _PARAGRAPH[kind]:
+                    paragraphs += 1
+                chars += len(el.text or "") + len(el.tail or "")
+                if chars > max_chars:
+                    raise TooLong(too_long_reason(chars, max_chars, at_least=True))
+                if paragraphs > MAX_PARAGRAPHS or elements > MAX_ELEMENTS:
+                    what = (f"more than {MAX_PARAGRAPHS:,} paragraphs" if paragraphs > MAX_PARAGRAPHS
+                            else f"more than {MAX_ELEMENTS:,} XML elements")
+                    raise ValueError(f"{what} (far more than an essay: a damaged or crafted file)")
+                el.clear(keep_tail=True)
+                while el.getprevious() is not None:  # keep memory flat
+                    del el.getparent()[0]
+
+
+def _docx_text(path: Path, max_chars: int = MAX_ESSAY_CHARS) -> str:
     import docx
 
+    _check_package(path, "docx", max_chars)
     return "\n".join(p.text for p in docx.Document(str(path)).paragraphs)
 
 
-def _odt_text(path: Path) -> str:
+def _odt_text(path: Path, max_chars: int = MAX_ESSAY_CHARS) -> str:
     from odf import teletype
     from odf.namespaces import TEXTNS
     from odf.opendocument import load
 
+    _check_package(path, "odt", max_chars)
     wanted = {(TEXTNS, "p"), (TEXTNS, "h")}
     parts: list[str] = []
 

@@ -7,7 +7,7 @@ from __future__ import annotations
 import csv
 import io
 
-from .decode import _normalise, _short
+from .decode import too_long_reason, _normalise, _short
 from .records import Essay, Skipped, _essay, _Info
 
 _STANDARD = ("l1", "level", "task")
@@ -23,13 +23,20 @@ def _table(text: str, required: tuple[str, ...]) -> tuple[list[str], list[tuple[
         if set(required) <= {c.strip().lower() for c in next(csv.reader([first], delimiter=d), [])}:
             delimiter = d
             break
-    reader = csv.reader(io.StringIO(text.lstrip("\ufeff"), newline=""), delimiter=delimiter)
-    header = [c.strip() for c in next(reader, [])]
-    rows = []
-    start = reader.line_num + 1
-    for cells in reader:
-        rows.append((start, cells))
+    # a cell may hold a whole essay: the csv module's default cap (131,072 characters) would
+    # refuse the whole table for one long essay, which the length check then skips alone
+    limit = csv.field_size_limit()
+    csv.field_size_limit(max(limit, len(text) + 1))
+    try:
+        reader = csv.reader(io.StringIO(text.lstrip("\ufeff"), newline=""), delimiter=delimiter)
+        header = [c.strip() for c in next(reader, [])]
+        rows = []
         start = reader.line_num + 1
+        for cells in reader:
+            rows.append((start, cells))
+            start = reader.line_num + 1
+    finally:
+        csv.field_size_limit(limit)
     return header, rows
 
 
@@ -47,7 +54,7 @@ def _row_info(header: list[str], cells: list[str], writer: str) -> _Info:
 
 
 def _csv_essays(rel: str, text: str, encoding: str, named: _Info | None,
-                skipped: list[Skipped]) -> list[Essay]:
+                skipped: list[Skipped], max_chars: int | None = None) -> list[Essay]:
     """Essays from a CSV table with ``writer`` and ``text`` columns, one per row.
 
     If the manifest names the table, its l1/level/task/meta fill what a row leaves
@@ -76,6 +83,9 @@ def _csv_essays(rel: str, text: str, encoding: str, named: _Info | None,
             continue
         if not writer:
             skipped.append(Skipped(rel, f"empty writer in CSV row {n} (fill in the 'writer' column)"))
+            continue
+        if max_chars is not None and len(body) > max_chars:
+            skipped.append(Skipped(rel, f"CSV row {n}: {too_long_reason(len(body), max_chars)}"))
             continue
         info = _row_info(header, cells, writer)
         if named is not None:

@@ -128,7 +128,7 @@ def write_reports(ws: Workspace, class_name: str, term: str, out_dir: Path, *, t
     data = load_run_view(ws, class_name, term, match=match)
     env = environment(template_dir)
     folder = Path(out_dir) / slugify(class_name) / slugify(term)
-    folder.mkdir(parents=True, exist_ok=True)
+    _make_folder(folder)
     paths = ReportPaths(folder=folder, handout=folder / "handout.html", handout_teacher=folder / "handout-teacher.html",
                         overview=folder / "overview.html", students=folder / "students.html",
                         patterns_csv=folder / "patterns.csv")
@@ -164,16 +164,24 @@ def write_trends(ws: Workspace, class_name: str, out_dir: Path, *, today: str | 
     """
     context = trends_page_context(ws, class_name, today=today, match=match)
     path = Path(out_dir) / slugify(class_name) / "trends.html"
-    path.parent.mkdir(parents=True, exist_ok=True)
+    _make_folder(path.parent)
     write_text(path, render("trends.html", context, template_dir=template_dir))
     log.info("trends for %s written to %s", class_name, path)
     return path
 
 
+def _make_folder(folder: Path) -> None:
+    """Create the report folder, or fail with one line (a file in the way, a read-only disk)."""
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise HingewordError(f"cannot create the report folder {folder}: {exc.strerror or exc}") from None
+
+
 def make_reports(workspace: str | Path, class_name: str, term: str, out_dir: str | Path, *, top: int = 5,
                  names: str = "pseudonyms", match: bool = False, today: str | None = None) -> ReportPaths:
     """Open the workspace and :func:`write_reports` for one run (what ``hingeword report`` calls)."""
-    with Workspace(workspace, create=False) as ws:
+    with Workspace(workspace, read_only=True) as ws:
         return write_reports(ws, class_name, term, Path(out_dir), top=top, names=names, match=match, today=today)
 
 
@@ -188,7 +196,7 @@ def make_trends(workspace: str | Path, class_name: str, *, out_dir: str | Path |
     """The trends table as text lines, proposed writer matches, and ``trends.html`` when ``out_dir`` is given."""
     from ..trends import MATCH_THRESHOLD, compute_trends, text_table, writer_matches
 
-    with Workspace(workspace, create=False) as ws:
+    with Workspace(workspace, read_only=True) as ws:
         tr = compute_trends(ws, class_name)
         lines = list(text_table(tr))
         if match:

@@ -57,13 +57,93 @@ def _row(r: PatternRecord) -> dict:
     }
 
 
+#: A file name inside a reason or note ("maria_garcia.txt", 'class/tom.docx'): a dot and 1–5 letters or digits
+#: starting with a letter, after at least one character that is not a space or quote.
+_FILE_NAME = re.compile(r"[^\s'\"`]+\.[A-Za-z][A-Za-z0-9]{0,4}\b")
+
+
+def file_namer(view: RunView):
+    """A function that rewrites a text so that no essay file name, folder or writer id
+    shows, for pages under pseudonyms (file names often carry students' names).
+
+    An essay becomes "essay of S03" ("essay 2 of S03" when the writer has several), a
+    writer id their pseudonym, a skipped file "file 4 (.pdf)" or, when it lies in a
+    known writer's folder or carries their name, "a file of S03 (.pdf)"; any other file
+    name left in the text becomes "a file".
+
+    :returns: ``(rename, skipped_label)``: ``rename(text)`` and ``skipped_label(source)``.
+    """
+    per_writer: dict[str, list[str]] = {}
+    for e in view.essays:
+        per_writer.setdefault(e.writer, []).append(e.essay_id)
+    known: dict[str, str] = {}
+    for writer, ids in per_writer.items():
+        code = view.pseudonym(writer)
+        for k, eid in enumerate(ids, start=1):
+            label = f"essay of {code}" if len(ids) == 1 else f"essay {k} of {code}"
+            for form in (eid, eid.rsplit("/", 1)[-1]):
+                known.setdefault(form, label)
+    codes = dict(view.codes)
+    skipped_labels: dict[str, str] = {}
+    for n, s in enumerate(view.skipped, start=1):
+        if ":line " in s.source:  # a manifest row: the manifest's own name, not a student's
+            continue
+        base = s.source.rsplit("/", 1)[-1]
+        stem, dot, ext = base.rpartition(".")
+        ext = f" (.{ext})" if dot and stem and 0 < len(ext) <= 5 else ""
+        owner = next((codes[w] for w in (s.source.split("/", 1)[0], stem or base) if w in codes), None)
+        skipped_labels[s.source] = f"a file of {owner}{ext}" if owner else f"file {n}{ext}"
+    for source, label in skipped_labels.items():
+        known.setdefault(source, label)
+    for writer, code in codes.items():
+        known.setdefault(writer, code)
+    forms = sorted((f for f in known if len(f) >= 3), key=len, reverse=True)
+    pattern = re.compile("|".join(re.escape(f) for f in forms)) if forms else None
+
+    def rename(text: str) -> str:
+        out = pattern.sub(lambda m: known[m.group(0)], text) if pattern else text
+        return _FILE_NAME.sub("a file", out)
+
+    def label(source: str) -> str:
+        if source in skipped_labels:
+            return skipped_labels[source]
+        manifest, sep, line = source.rpartition(":line ")
+        return source if sep and line.isdigit() else rename(source)
+
+    return rename, label
+
+
+def spelling_groups(view: RunView) -> list[dict]:
+    """Every spelling grouping of the run, from its stored instances: the forms as written,
+    the word they were counted as, uses and writers, and the scan option that undoes it."""
+    groups: dict[tuple[str, str, str], dict] = {}
+    for a in view.attachments:
+        if not a.original_governor:
+            continue
+        g = groups.setdefault((a.original_governor, a.governor, a.governor_pos),
+                              {"forms": set(), "uses": 0, "writers": set()})
+        g["forms"].add(a.governor_text.lower())
+        g["uses"] += 1
+        g["writers"].add(a.writer)
+    rows = []
+    for (original, governor, pos), g in sorted(groups.items()):
+        forms = sorted(g["forms"])
+        rows.append({"written": ", ".join(forms), "counted_as": f"{governor} ({_POS.get(pos, pos)})",
+                     "uses": fmt_int(g["uses"]), "writers": fmt_int(len(g["writers"])),
+                     "undo": " ".join(f"--keep-spelling {f}" for f in forms)})
+    return rows
+
+
 def build_overview_context(view: RunView, *, names: str = "pseudonyms", today: str) -> dict:
     """Context of ``overview.html``: every pattern, flagged details, run facts.
 
     Concordance lines carry writer codes (or names with ``names="real"``); essay ids,
-    which are often file names with students' names, are shown only with real names.
+    which are often file names with students' names, are shown only with real names:
+    under pseudonyms, skipped files, duplicate notes and reasons name files by
+    :func:`file_namer`.
     """
     records = view.records
+    rename, label = file_namer(view) if names != "real" else (str, str)
     instances = by_key(view.attachments)
     texts = {e.essay_id: e.text for e in view.essays}
     flagged = []
@@ -115,20 +195,39 @@ def build_overview_context(view: RunView, *, names: str = "pseudonyms", today: s
                     "statuses": [(s, c) for s, c in statuses if c]},
         "rows": [_row(r) for r in records],
         "flagged": flagged, "dismissed": dismissed,
-        "skipped": [{"source": s.source, "reason": s.reason} for s in view.skipped],
-        "notes": [{"kind": n.kind, "message": n.message} for n in view.notes],
+        "skipped": [{"source": label(s.source), "reason": rename(s.reason)} for s in view.skipped],
+        "notes": [{"kind": n.kind, "message": rename(n.message)} for n in view.notes],
+        "file_names_hidden": names != "real" and bool(view.skipped or view.notes),
+        "spelling": spelling_groups(view),
+        "kept_spellings": [str(k) for k in run.settings.get("keep_spelling") or ()],
     }
 
 
+_SCRIPTABLE = {"script", "foreignobject", "iframe", "object", "embed", "handler", "listener"}
+
+
 def _svg_markup(svg: str) -> Markup | str:
-    """Inline SVG drawn by matplotlib from our own numbers (its backend escapes text)
-    marked safe for the template; anything scriptable is refused rather than trusted."""
+    """Inline SVG drawn by matplotlib from our own numbers and labels, marked safe for the
+    template after a check of its structure: no scriptable element, no event attribute,
+    no link but to an id inside the drawing. Text content is not inspected: matplotlib
+    escapes it, so a term named "javascript:" is only words on the chart."""
     svg = (svg or "").strip()
     if not svg:
         return ""
-    if not svg.startswith("<svg") or re.search(r"<script|javascript:|\son\w+\s*=|<foreignObject", svg, re.I):
-        log.warning("a chart was left out: its SVG is not plain drawing markup")
+    import xml.etree.ElementTree as ET
+
+    try:
+        root = ET.fromstring(svg)
+    except ET.ParseError:
+        log.warning("a chart was left out: its SVG could not be read")
         return ""
+    for el in root.iter():
+        tag = el.tag.rsplit("}", 1)[-1].lower()
+        links = [v for k, v in el.attrib.items() if k.rsplit("}", 1)[-1].lower() == "href"]
+        if tag in _SCRIPTABLE or any(k.rsplit("}", 1)[-1].lower().startswith("on") for k in el.attrib) or \
+                any(not v.strip().startswith("#") for v in links) or not root.tag.endswith("svg"):
+            log.warning("a chart was left out: its SVG is not plain drawing markup")
+            return ""
     return Markup(svg)
 
 

@@ -7,6 +7,7 @@ segments (:data:`Segments`), which the environment autoescapes.
 
 from __future__ import annotations
 
+import hashlib
 import re
 import unicodedata
 from dataclasses import dataclass
@@ -40,11 +41,33 @@ class SentenceView:
 # ------------------------------------------------------------------ helpers
 
 
+#: Longest readable part of a report folder name, in UTF-8 bytes (file systems allow 255).
+MAX_SLUG_BYTES = 80
+#: Names Windows reserves for devices, whatever the extension.
+_RESERVED = {"con", "prn", "aux", "nul", *(f"com{i}" for i in range(1, 10)), *(f"lpt{i}" for i in range(1, 10))}
+
+
 def slugify(name: str) -> str:
-    """A safe folder name: ASCII letters, digits, ``-`` and ``_`` (``"Évening B2!"`` → ``evening-b2``)."""
-    text = unicodedata.normalize("NFKD", str(name)).encode("ascii", "ignore").decode("ascii")
-    text = re.sub(r"[^A-Za-z0-9_]+", "-", text.lower()).strip("-_")
-    return text or "unnamed"
+    """The report folder name of a class or term: readable, safe, and one per name.
+
+    Letters, digits and marks of every script are kept (``"日本語クラス"`` stays as it is),
+    lower-cased; any other run of characters becomes ``-``; the readable part is at most
+    :data:`MAX_SLUG_BYTES` bytes. When that changed the name in any way (case, spaces,
+    punctuation, length, a device name such as ``con``), the first 8 hex digits of the
+    SHA-256 of the exact name are added, so two names never share a folder, even on a
+    case-insensitive file system: ``"10b"`` → ``10b``, ``"10B"`` → ``10b-…``,
+    ``"Класс А"`` → ``класс-а-…``, ``"../.."`` → ``unnamed-…``.
+    """
+    text = unicodedata.normalize("NFC", str(name))
+    chars = [ch if unicodedata.category(ch)[0] in "LNM" or ch == "_" else "-" for ch in text.lower()]
+    readable = re.sub(r"-{2,}", "-", "".join(chars)).strip("-_")
+    while len(readable.encode("utf-8")) > MAX_SLUG_BYTES:
+        readable = readable[:-1]
+    readable = readable.rstrip("-_")
+    if readable and readable == str(name) and readable not in _RESERVED:
+        return readable
+    digest = hashlib.sha256(str(name).encode("utf-8", "surrogatepass")).hexdigest()[:8]
+    return f"{readable or 'unnamed'}-{digest}"
 
 
 def segments(text: str, spans: list[Span]) -> Segments:
