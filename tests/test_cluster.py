@@ -176,17 +176,27 @@ def test_cluster_build_resumes_after_interrupt(dask_cluster, split, tmp_path):
     first = _Stop(stop_after=2)
     with pytest.raises(KeyboardInterrupt):
         reference.build(src, out, name="tiny", fmt="conllu", build_date=BUILD_DATE, cluster=address, shard_bytes=1,
-                        checkpoint_every=1, progress=first)
+                        checkpoint_every=1, checkpoint_seconds=0, progress=first)
     state = json.loads((tmp_path / "tiny.partial" / "state.json").read_text(encoding="utf-8"))
     assert len(state["done"]) == 2 and not out.exists()
 
     second = _Stop()
     path = reference.build(src, out, name="tiny", fmt="conllu", build_date=BUILD_DATE, cluster=address, shard_bytes=1,
-                           checkpoint_every=1, progress=second)
+                           checkpoint_every=1, checkpoint_seconds=0, progress=second)
     # only the three files not yet saved were sent again, and nothing was counted twice
     assert [(p.files_done, p.shards_done, p.shards_total) for p in second.calls] == [(3, 1, 3), (4, 2, 3), (5, 3, 3)]
     assert _bytes(path) == _bytes(whole)
     assert not (tmp_path / "tiny.partial").exists()
+
+
+def test_cluster_checkpoints_at_most_every_checkpoint_seconds(dask_cluster, split, tmp_path):
+    """Shards come back fast from many workers: saving all counts after each would hold the client up."""
+    address, _ = dask_cluster
+    src, _ = split
+    with pytest.raises(KeyboardInterrupt):
+        reference.build(src, tmp_path / "tiny", name="tiny", fmt="conllu", cluster=address, shard_bytes=1,
+                        checkpoint_every=1, checkpoint_seconds=3600, progress=_Stop(stop_after=3))
+    assert not (tmp_path / "tiny.partial").exists()  # four shards summed within the hour: none saved yet
 
 
 def test_cluster_and_single_process_builds_resume_each_other(dask_cluster, split, tmp_path):
@@ -195,13 +205,13 @@ def test_cluster_and_single_process_builds_resume_each_other(dask_cluster, split
     out = tmp_path / "tiny"
     with pytest.raises(KeyboardInterrupt):  # interrupted on the cluster ...
         reference.build(src, out, name="tiny", fmt="conllu", build_date=BUILD_DATE, cluster=address, shard_bytes=1,
-                        checkpoint_every=1, progress=_Stop(stop_after=1))
+                        checkpoint_every=1, checkpoint_seconds=0, progress=_Stop(stop_after=1))
     with pytest.raises(KeyboardInterrupt):  # ... continued here and interrupted again ...
         reference.build(src, out, name="tiny", fmt="conllu", build_date=BUILD_DATE, checkpoint_every=1,
                         progress=_Stop(stop_after=3))
     last = _Stop()  # ... and finished on the cluster
     path = reference.build(src, out, name="tiny", fmt="conllu", build_date=BUILD_DATE, cluster=address,
-                           shard_bytes=1, checkpoint_every=1, progress=last)
+                           shard_bytes=1, checkpoint_every=1, checkpoint_seconds=0, progress=last)
     assert [p.files_done for p in last.calls] == [4, 5]
     assert _bytes(path) == _bytes(whole)
 

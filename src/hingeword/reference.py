@@ -28,6 +28,7 @@ import os
 import re
 import shutil
 import tempfile
+import time
 from collections import Counter
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from contextlib import ExitStack
@@ -479,6 +480,7 @@ def build(
     build_date: str | None = None,
     cluster: str | None = None,
     shard_bytes: int = 256_000,
+    checkpoint_seconds: float = 60.0,
 ) -> Path:
     """Build a reference from a folder of plain text (``fmt="text"``) or CoNLL-U files.
 
@@ -490,7 +492,8 @@ def build(
         local worker processes: files are counted in shards of about ``shard_bytes``
         on the workers and summed here (:mod:`hingeword.cluster`). The reference is
         the same, byte for byte, and the checkpoints are shared with the build without
-        a cluster (either resumes the other).
+        a cluster (either resumes the other). Shards come back fast from many workers,
+        so there a checkpoint is also at most one every ``checkpoint_seconds``.
     """
     source = Path(source)
     if not source.is_dir():
@@ -541,7 +544,7 @@ def build(
                 done, total = [], Counts()
         done_set = set(done)
         todo = [f for f in files if str(f.relative_to(source)) not in done_set]
-        unsaved = 0
+        unsaved, saved_at = 0, time.monotonic()
 
         def checkpoint() -> None:
             save(Reference(manifest={"name": name, "partial": True}, patterns=total.patterns, lemmas=total.lemmas), partial)
@@ -549,15 +552,16 @@ def build(
 
         def finish(names: list[str], counts: Counts, shards: tuple[int, int] = (0, 0)) -> None:
             """Add counted files (one, or a cluster's shard) and checkpoint every ``checkpoint_every`` files."""
-            nonlocal unsaved
+            nonlocal unsaved, saved_at
             total.add(counts)
             done.extend(names)
             unsaved += len(names)
             if progress:
                 progress(BuildProgress(len(files), len(done), shards_total=shards[1], shards_done=shards[0]))
-            if unsaved >= checkpoint_every and len(done) < len(files):
+            due = counter is None or time.monotonic() - saved_at >= checkpoint_seconds
+            if unsaved >= checkpoint_every and len(done) < len(files) and due:
                 checkpoint()
-                unsaved = 0
+                unsaved, saved_at = 0, time.monotonic()
 
         relative = {str(f): str(f.relative_to(source)) for f in todo}
         if counter is not None:
