@@ -86,6 +86,11 @@ def run(label: str, source: Path, out: Path, **kw) -> tuple[float, float, Path]:
     return time.monotonic() - t, cpu_seconds() - cpu, path
 
 
+def duration(seconds: float) -> str:
+    minutes = round(seconds / 60)
+    return f"{minutes // 60} h {minutes % 60:02d} min" if minutes >= 60 else f"{minutes} min"
+
+
 def start_up(n: int) -> float:
     """Seconds to start ``local:n`` and load the pipeline on every worker, with nothing to count."""
     from hingeword.cluster import ClusterCounter
@@ -175,9 +180,9 @@ def main(argv: list[str] | None = None) -> int:
     print(f"{'':14} {'at ' + format(round(per_cpu), ',') + ' words/CPU s':>26} "
           f"{'at ' + format(round(per_wall), ',') + ' words/s per core here':>34}")
     for machines in (1, 4, 16):
-        h_cpu = 100e6 / (per_cpu * cores * machines) / 3600
-        h_wall = 100e6 / (per_wall * cores * machines) / 3600
-        print(f"{machines:>3} machine{'s' if machines > 1 else ' '}   {h_cpu:24.1f} h {h_wall:32.1f} h")
+        by_cpu = duration(100e6 / (per_cpu * cores * machines))
+        by_wall = duration(100e6 / (per_wall * cores * machines))
+        print(f"{machines:>3} machine{'s' if machines > 1 else ' '}   {by_cpu:>26} {by_wall:>34}")
     print("(the first column assumes each core to itself, the second the shared machine measured here; "
           "both assume linear scaling: the client only reads and sums, the network is not a limit)")
     return 0
