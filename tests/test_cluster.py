@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import json
 import os
+import re
 import shutil
 import sys
 from collections import Counter
@@ -277,6 +278,42 @@ def test_cluster_failed_shard_is_retried_and_counted_once(dask_cluster, split, t
     assert marker.exists()  # the fault did happen
     assert _bytes(path) == _bytes(whole)
     assert Counter(reference.load(path).patterns) == Counter(reference.load(whole).patterns)
+
+
+class _FailAlways(WorkerPlugin):
+    """Worker plugin: every shard raises OSError (a fault that retrying does not cure)."""
+
+    name = "hingeword-test-fail-always"
+
+    def setup(self, worker):
+        import hingeword.reference as ref
+
+        self.original = ref.count_documents
+
+        def failing(*args, **kwargs):
+            raise OSError("simulated lasting failure")
+
+        ref.count_documents = failing
+
+    def teardown(self, worker):
+        import hingeword.reference as ref
+
+        ref.count_documents = self.original
+
+
+def test_cluster_shard_failing_after_retries_is_a_one_line_error(dask_cluster, split, tmp_path):
+    address, client = dask_cluster
+    src, _ = split
+    client.register_plugin(_FailAlways(), name=_FailAlways.name)
+    try:
+        with pytest.raises(ClusterError) as exc:
+            reference.build(src, tmp_path / "tiny", name="tiny", fmt="conllu", cluster=address, shard_bytes=1)
+    finally:
+        client.unregister_worker_plugin(_FailAlways.name)
+    assert re.fullmatch(r"the shard of 1 file starting with part\d\.conllu could not be counted \(OSError: "
+                        r"simulated lasting failure\); run the build again to resume from its last checkpoint",
+                        str(exc.value))
+    assert not (tmp_path / "tiny").exists()
 
 
 def test_cluster_bad_conllu_is_the_same_one_line_error(dask_cluster, tmp_path):

@@ -39,7 +39,9 @@ from collections.abc import Iterator, Sequence
 from concurrent.futures import CancelledError
 from pathlib import Path
 
+from . import reference
 from .errors import ClusterError, HingewordError
+from .reference import GOLD_MODEL, Counts, read_source_file
 
 log = logging.getLogger("hingeword")
 
@@ -90,8 +92,6 @@ def plan_shards(sizes: Sequence[int], target: int) -> list[range]:
 
 def _worker_model(fmt: str, model: str | None) -> dict | str:
     """Runs on each worker: load the pipeline (once per process) and describe it, or say why not."""
-    from .reference import GOLD_MODEL
-
     if fmt != "text":
         return dict(GOLD_MODEL)
     try:
@@ -106,8 +106,6 @@ def _worker_model(fmt: str, model: str | None) -> dict | str:
 def _count_shard_task(docs: list[tuple[str, str]], fmt: str, model: str | None):
     """Runs on a worker: count one shard. Returns ``(Counts, model description, host)``, or the
     :class:`HingewordError` to report (returned, not raised: bad data is not retried)."""
-    from . import reference
-
     try:
         if fmt == "text":
             from .parse import load_model
@@ -115,7 +113,7 @@ def _count_shard_task(docs: list[tuple[str, str]], fmt: str, model: str | None):
             nlp, info = load_model(model)
             desc = {"model": info.name, "model_version": info.version}
         else:
-            nlp, desc = None, dict(reference.GOLD_MODEL)
+            nlp, desc = None, dict(GOLD_MODEL)
         return reference.count_shard(docs, fmt, nlp), desc, socket.gethostname()
     except HingewordError as exc:
         return exc
@@ -178,8 +176,6 @@ class ClusterCounter:
 
     def model_desc(self, fmt: str, model: str | None) -> dict:
         """The pipeline every worker parses with (loaded there now); an error when they differ."""
-        from .reference import GOLD_MODEL
-
         if fmt != "text":
             return dict(GOLD_MODEL)
         answers = self.client.run(_worker_model, fmt, model)
@@ -194,7 +190,7 @@ class ClusterCounter:
         return next(iter(answers.values()))
 
     def count(self, files: Sequence[Path], fmt: str, model: str | None, *, expected: dict,
-              shard_bytes: int = 256_000) -> Iterator[tuple[list[str], object, tuple[int, int]]]:
+              shard_bytes: int = 256_000) -> Iterator[tuple[list[str], Counts, tuple[int, int]]]:
         """Count ``files`` on the workers; yield ``(file names, Counts, (shards done, shards total))``
         per shard as it comes back. ``expected`` is :meth:`model_desc`: a shard counted with
         another pipeline (a worker that joined later) stops the build."""
@@ -218,8 +214,6 @@ class ClusterCounter:
                     return
                 i, span = item
                 paths = [files[k] for k in span]
-                from .reference import read_source_file
-
                 docs = [(str(p), read_source_file(p, fmt)) for p in paths]
                 fut = self.client.submit(_count_shard_task, docs, fmt, model, key=f"hingeword-shard-{token}-{i}",
                                          retries=self.retries, pure=False)
@@ -236,7 +230,8 @@ class ClusterCounter:
                     result = fut.result()
                 except (distributed.KilledWorker, CancelledError, OSError, TimeoutError) as exc:
                     raise ClusterError(
-                        f"the shard of {len(paths)} files from {paths[0].name} could not be counted "
+                        f"the shard of {len(paths)} file{'s' if len(paths) > 1 else ''} starting with "
+                        f"{paths[0].name} could not be counted "
                         f"({type(exc).__name__}: {_first_line(exc)}); run the build again to resume "
                         "from its last checkpoint") from None
                 fut.release()
