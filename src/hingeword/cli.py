@@ -126,6 +126,8 @@ def _progress(quiet: bool):
 
 def _setup_logging(verbose: bool) -> None:
     logging.basicConfig(level=logging.DEBUG if verbose else logging.WARNING, format="%(levelname)s: %(message)s")
+    # Dask (reference build --cluster) logs through its own handler, at its own levels
+    logging.getLogger("distributed").propagate = False
 
 
 def _version(value: bool) -> None:
@@ -388,6 +390,9 @@ def reference_build(
     licence: str = typer.Option("not stated", "--licence", help="Licence of the source texts."),
     limits: str = typer.Option("", "--limits", help="What the reference does not represent."),
     build_date: Optional[str] = typer.Option(None, "--build-date", help="Date to record (default: today)."),
+    cluster: Optional[str] = typer.Option(
+        None, "--cluster", help="Count on a Dask cluster: local:N (N local workers) or a scheduler address, "
+        'tcp://HOST:8786. Needs pip install "hingeword[cluster]".'),
     quiet: bool = QuietOpt,
 ):
     """Build a reference from native writing (resumes after an interruption)."""
@@ -397,9 +402,17 @@ def reference_build(
     target = output or ref.references_dir(workspace) / name
     with _progress(quiet) as bar:
         task = bar.add_task(f"building {escape(name)}", total=None)
+
+        def show(p: ref.BuildProgress) -> None:
+            if p.shards_total:  # on a cluster: shards of this run
+                bar.update(task, completed=p.shards_done, total=p.shards_total,
+                           description=f"building {escape(name)}: shard {p.shards_done}/{p.shards_total}")
+            else:
+                bar.update(task, completed=p.files_done, total=p.files_total)
+
         path = ref.build(source, target, name=name, fmt=fmt.value, model=model, processes=processes,
                          description=description, licence=licence, limits=limits, build_date=build_date,
-                         progress=lambda p: bar.update(task, completed=p.files_done, total=p.files_total))
+                         cluster=cluster, progress=show)
     manifest = ref.read_manifest(path)
     out.print(f"built {name} at {path}: {manifest['documents']} files, {manifest['words']:,} words, "
               f"{manifest['attachments']:,} attachments, parser {manifest['model']} {manifest['model_version']}")

@@ -305,10 +305,17 @@ def count_sentence(rows: list[list[str]], patterns: Counter, lemmas: Counter) ->
     return words
 
 
-def count_conllu(path: Path, patterns: Counter, lemmas: Counter) -> tuple[int, int]:
-    """Add a whole CoNLL-U file; return (words, sentences)."""
+def count_lines(lines: Iterable[str], name: str, patterns: Counter, lemmas: Counter) -> tuple[int, int]:
+    """Add the sentences of one CoNLL-U document (its lines; ``name`` is named in errors);
+    return (words, sentences)."""
     words = sents = 0
-    for rows in sentences(path):
+    for _, rows in read_blocks(lines, name):
         words += count_sentence(rows, patterns, lemmas)
         sents += 1
     return words, sents
+
+
+def count_conllu(path: Path, patterns: Counter, lemmas: Counter) -> tuple[int, int]:
+    """Add a whole CoNLL-U file; return (words, sentences)."""
+    with Path(path).open(encoding="utf-8") as fh:
+        return count_lines(fh, str(path), patterns, lemmas)

@@ -27,3 +27,7 @@ class ReferenceDataError(HingewordError):
 
 class RulesError(HingewordError):
     """A rule file is malformed (the loader collects these instead of raising)."""
+
+
+class ClusterError(HingewordError):
+    """A cluster build cannot run: Dask not installed, scheduler unreachable, no or mismatched workers."""

@@ -28,8 +28,10 @@ import os
 import re
 import shutil
 import tempfile
+import time
 from collections import Counter
 from collections.abc import Callable, Iterable, Iterator, Sequence
+from contextlib import ExitStack
 from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
@@ -378,9 +380,19 @@ def load_many(names: Sequence[str], workspace: str | Path | None = None) -> Refe
 
 # ------------------------------------------------------------------------- build
 
+#: What a build from gold CoNLL-U trees records as its parser.
+GOLD_MODEL = {"model": "gold (CoNLL-U)", "model_version": "-"}
+
 
 def _text_files(source: Path, suffixes: tuple[str, ...]) -> list[Path]:
     return sorted(p for p in source.rglob("*") if p.is_file() and p.suffix.lower() in suffixes and not p.name.startswith("."))
+
+
+def read_source_file(path: Path, fmt: str) -> str:
+    """One input file as text: plain text with undecodable bytes replaced, CoNLL-U strictly UTF-8."""
+    if fmt == "text":
+        return path.read_text(encoding="utf-8", errors="replace")
+    return path.read_text(encoding="utf-8")
 
 
 def _chunks(text: str) -> Iterator[str]:
@@ -414,9 +426,84 @@ def count_doc(doc, patterns: Counter, lemmas: Counter) -> tuple[int, int]:
 
 
 @dataclass
+class Counts:
+    """What a build adds up: pattern and lemma counts, words, sentences, documents.
+
+    Only integer sums, so counts added in any order give the same totals, and
+    :func:`save` sorts the rows: the shards of a cluster build, summed as they
+    arrive, give the same files as a single-process build.
+    """
+
+    patterns: Counter = field(default_factory=Counter)  # (gov, pos, prep) -> count
+    lemmas: Counter = field(default_factory=Counter)  # (lemma, pos) -> tokens
+    words: int = 0
+    sentences: int = 0
+    documents: int = 0
+
+    def add(self, other: Counts) -> Counts:
+        self.patterns.update(other.patterns)
+        self.lemmas.update(other.lemmas)
+        self.words += other.words
+        self.sentences += other.sentences
+        self.documents += other.documents
+        return self
+
+    def totals(self) -> dict[str, int]:
+        return {"words": self.words, "sentences": self.sentences, "documents": self.documents}
+
+
+def count_documents(docs: Iterable[tuple[str, str]], fmt: str = "text", nlp=None, *,
+                    processes: int = 1) -> Iterator[tuple[str, Counts]]:
+    """Count documents given as ``(name, text)``; yield ``(name, Counts)`` for each, in order.
+
+    The counting of every build: the single-process build sums what this yields file by
+    file, a cluster worker sums one shard (:func:`count_shard`). Plain text is cut into
+    paragraph-sized pieces and parsed by ``nlp`` (``processes`` parser processes over the
+    whole stream; ``docs`` is read lazily); CoNLL-U text is read as gold trees
+    (:mod:`hingeword.conllu`) and ``name`` is named in its errors.
+    """
+    if fmt == "conllu":
+        from .conllu import count_lines
+
+        for name, text in docs:
+            c = Counts(documents=1)
+            c.words, c.sentences = count_lines(io.StringIO(text), name, c.patterns, c.lemmas)
+            yield name, c
+        return
+
+    def stream() -> Iterator[tuple[str, tuple[str, bool]]]:
+        for name, text in docs:
+            pieces = list(_chunks(text)) or [""]
+            for j, piece in enumerate(pieces):
+                yield piece, (name, j == len(pieces) - 1)
+
+    # One pipe over all documents keeps worker processes alive; order is preserved,
+    # so a document is complete when its last piece comes back.
+    current = Counts(documents=1)
+    for doc, (name, last) in nlp.pipe(stream(), as_tuples=True, batch_size=8, n_process=max(1, processes)):
+        w, s = count_doc(doc, current.patterns, current.lemmas)
+        current.words += w
+        current.sentences += s
+        if last:
+            yield name, current
+            current = Counts(documents=1)
+
+
+def count_shard(docs: Iterable[tuple[str, str]], fmt: str = "text", nlp=None) -> Counts:
+    """The counts of a group of documents (one shard of a cluster build), summed."""
+    total = Counts()
+    for _, c in count_documents(docs, fmt, nlp):
+        total.add(c)
+    return total
+
+
+@dataclass
 class BuildProgress:
     files_total: int
     files_done: int
+    #: on a cluster: shards of this run (0 without a cluster)
+    shards_total: int = 0
+    shards_done: int = 0
 
 
 def build(
@@ -433,12 +520,22 @@ def build(
     checkpoint_every: int = 20,
     progress: Callable[[BuildProgress], None] | None = None,
     build_date: str | None = None,
+    cluster: str | None = None,
+    shard_bytes: int = 256_000,
+    checkpoint_seconds: float = 60.0,
 ) -> Path:
     """Build a reference from a folder of plain text (``fmt="text"``) or CoNLL-U files.
 
     Streams file by file: memory grows with the vocabulary, not with the corpus.
     Every ``checkpoint_every`` files the counts so far are saved beside the output
     (``<out>.partial/``); a build started again with the same arguments resumes there.
+
+    :param cluster: a Dask scheduler address (``tcp://HOST:8786``) or ``local:N`` for N
+        local worker processes: files are counted in shards of about ``shard_bytes``
+        on the workers and summed here (:mod:`hingeword.cluster`). The reference is
+        the same, byte for byte, and the checkpoints are shared with the build without
+        a cluster (either resumes the other). Shards come back fast from many workers,
+        so there a checkpoint is also at most one every ``checkpoint_seconds``.
     """
     source = Path(source)
     if not source.is_dir():
@@ -454,83 +551,80 @@ def build(
     files = _text_files(source, (".txt",) if fmt == "text" else (".conllu", ".conll"))
     if not files:
         raise ReferenceDataError(f"no {'.txt' if fmt == 'text' else '.conllu'} files under {source}")
-    if fmt == "text":
-        from .parse import load_model
-
-        nlp, info = load_model(model)
-        model_desc = {"model": info.name, "model_version": info.version}
-    else:
-        nlp = None
-        model_desc = {"model": "gold (CoNLL-U)", "model_version": "-"}
     partial = out.with_name(out.name + ".partial")
     check_target(partial)
-    state_path = partial / "state.json"
-    key = {"source": str(source.resolve()), "format": fmt, **model_desc, "extractor_version": EXTRACTOR_VERSION}
-    patterns: Counter = Counter()
-    lemmas: Counter = Counter()
-    totals = {"words": 0, "sentences": 0, "documents": 0}
-    done: list[str] = []
-    if state_path.is_file():
-        try:
-            state = json.loads(state_path.read_text(encoding="utf-8"))
-            if state.get("key") == key:
-                done = state["done"]
-                totals = state["totals"]
-                saved = load(partial)
-                patterns, lemmas = saved.patterns, saved.lemmas
-                log.info("resuming reference build: %d of %d files already counted", len(done), len(files))
-        except (ReferenceDataError, OSError, ValueError, KeyError):
-            done = []
-    done_set = set(done)
-    todo = [f for f in files if str(f.relative_to(source)) not in done_set]
+    if cluster is not None and processes > 1:
+        raise ReferenceDataError("on a cluster each worker runs one parser process: leave out processes")
+    with ExitStack() as stack:
+        nlp = counter = None
+        if cluster is not None:
+            from .cluster import ClusterCounter
 
-    def checkpoint() -> None:
-        save(Reference(manifest={"name": name, "partial": True}, patterns=patterns, lemmas=lemmas), partial)
-        state_path.write_text(json.dumps({"key": key, "done": done, "totals": totals}), encoding="utf-8")
+            counter = stack.enter_context(ClusterCounter(cluster))
+            model_desc = counter.model_desc(fmt, model)
+        elif fmt == "text":
+            from .parse import load_model
 
-    def finish(f: Path) -> None:
-        totals["documents"] += 1
-        done.append(str(f.relative_to(source)))
-        if progress:
-            progress(BuildProgress(len(files), len(done)))
-        if len(done) % checkpoint_every == 0 and len(done) < len(files):
-            checkpoint()
+            nlp, info = load_model(model)
+            model_desc = {"model": info.name, "model_version": info.version}
+        else:
+            model_desc = dict(GOLD_MODEL)
 
-    if fmt == "text":
-        def stream() -> Iterator[tuple[str, tuple[int, bool]]]:
-            for i, f in enumerate(todo):
-                pieces = list(_chunks(f.read_text(encoding="utf-8", errors="replace"))) or [""]
-                for j, piece in enumerate(pieces):
-                    yield piece, (i, j == len(pieces) - 1)
+        state_path = partial / "state.json"
+        key = {"source": str(source.resolve()), "format": fmt, **model_desc, "extractor_version": EXTRACTOR_VERSION}
+        total = Counts()
+        done: list[str] = []
+        if state_path.is_file():
+            try:
+                state = json.loads(state_path.read_text(encoding="utf-8"))
+                if state.get("key") == key:
+                    saved = load(partial)
+                    done = list(state["done"])
+                    total = Counts(Counter(saved.patterns), Counter(saved.lemmas), **state["totals"])
+                    log.info("resuming reference build: %d of %d files already counted", len(done), len(files))
+            except (ReferenceDataError, OSError, ValueError, KeyError, TypeError):
+                done, total = [], Counts()
+        done_set = set(done)
+        todo = [f for f in files if str(f.relative_to(source)) not in done_set]
+        unsaved, saved_at = 0, time.monotonic()
 
-        # One pipe over all files keeps worker processes alive; order is preserved,
-        # so a file is complete when its last piece comes back.
-        for doc, (i, last) in nlp.pipe(stream(), as_tuples=True, batch_size=8, n_process=max(1, processes)):
-            w, s = count_doc(doc, patterns, lemmas)
-            totals["words"] += w
-            totals["sentences"] += s
-            if last:
-                finish(todo[i])
-    else:
-        from .conllu import count_conllu
+        def checkpoint() -> None:
+            save(Reference(manifest={"name": name, "partial": True}, patterns=total.patterns, lemmas=total.lemmas), partial)
+            state_path.write_text(json.dumps({"key": key, "done": done, "totals": total.totals()}), encoding="utf-8")
 
-        for f in todo:
-            w, s = count_conllu(f, patterns, lemmas)
-            totals["words"] += w
-            totals["sentences"] += s
-            finish(f)
+        def finish(names: list[str], counts: Counts, shards: tuple[int, int] = (0, 0)) -> None:
+            """Add counted files (one, or a cluster's shard) and checkpoint every ``checkpoint_every`` files."""
+            nonlocal unsaved, saved_at
+            total.add(counts)
+            done.extend(names)
+            unsaved += len(names)
+            if progress:
+                progress(BuildProgress(len(files), len(done), shards_total=shards[1], shards_done=shards[0]))
+            due = counter is None or time.monotonic() - saved_at >= checkpoint_seconds
+            if unsaved >= checkpoint_every and len(done) < len(files) and due:
+                checkpoint()
+                unsaved, saved_at = 0, time.monotonic()
+
+        relative = {str(f): str(f.relative_to(source)) for f in todo}
+        if counter is not None:
+            for names, counts, shards in counter.count(todo, fmt, model, expected=model_desc, shard_bytes=shard_bytes):
+                finish([relative[n] for n in names], counts, shards)
+        else:
+            docs = ((str(f), read_source_file(f, fmt)) for f in todo)
+            for doc_name, counts in count_documents(docs, fmt, nlp, processes=processes):
+                finish([relative[doc_name]], counts)
     manifest = {
         "name": name,
         "source": description or f"{fmt} files under {source.name}/",
         "licence": licence,
         "limits": limits,
         "format": fmt,
-        **totals,
+        **total.totals(),
         **model_desc,
         "extractor_version": EXTRACTOR_VERSION,
         "build_date": build_date or _dt.date.today().isoformat(),
     }
-    path = save(Reference(manifest=manifest, patterns=patterns, lemmas=lemmas), out)
+    path = save(Reference(manifest=manifest, patterns=total.patterns, lemmas=total.lemmas), out)
     if _is_reference_dir(partial):
         _remove_reference_dir(partial)
     return path
