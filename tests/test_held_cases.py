@@ -19,7 +19,7 @@ from hingeword.cli import app
 from hingeword.history import Workspace
 from hingeword.ingest import Skipped
 from hingeword.parse import ModelInfo, ParseStats, parse_texts
-from hingeword.patterns import count_patterns
+from hingeword.patterns import Tally
 from hingeword.reference import Reference
 from hingeword.score import Thresholds, score_patterns
 
@@ -35,7 +35,7 @@ def test_report_hostile_text_is_escaped_on_every_page(tmp_path):
     ref = Reference(manifest={"name": f"ref {EVIL}", "limits": EVIL},
                     patterns={("discuss", "VERB", "-"): 40, ("talk", "VERB", "about"): 30})
     used = Thresholds(min_reference=5)
-    records = score_patterns(count_patterns(atts), atts, ref, used)
+    records = score_patterns(Tally.from_attachments(atts), ref, used)
     assert any(r.flagged for r in records)
     with Workspace(tmp_path / "ws") as ws:
         for t, start in ((f"{term} 1", "2026-01-01"), (term, "2026-04-01")):

@@ -434,3 +434,72 @@ def test_measures_ranking_by_mi_equals_ranking_by_oe(group):
                 assert mi[i] == pytest.approx(mi[j], rel=1e-12, abs=1e-12)
             if exact_dice[i] < exact_dice[j]:
                 assert logdice[i] < logdice[j]
+
+
+# --- rate ratio: the flag decision's measure (docs/methods.md, "Rate ratio") ---------------
+
+RATE_TABLES = [(5, 200, 0, 388), (3, 40, 2, 900), (12, 300, 30, 5000), (1, 10, 50, 100), (0, 50, 4, 80)]
+
+
+@pytest.mark.parametrize("a, n1, c, n2", RATE_TABLES)
+@pytest.mark.parametrize("k", [1.0, 1.7])
+def test_measures_rate_ratio_test_equals_scipy_binomtest(a, n1, c, n2, k):
+    """The conditional two-rate test is a binomial test of a out of a + c at π0 = k·n1 / (k·n1 + n2)
+    (Przyborowski & Wilenski 1940 [from memory]); computed with scipy.stats.binomtest."""
+    pi0 = k * n1 / (k * n1 + n2)
+    for alt in ("greater", "less"):
+        want = stats.binomtest(a, a + c, pi0, alternative=alt).pvalue if a + c else 1.0
+        assert m.rate_ratio_test(a, n1, c, n2, k=k, alternative=alt) == pytest.approx(want, rel=1e-9)
+
+
+def test_measures_rate_ratio_methods_check_values():
+    """"discuss about": 5 of 200 uses of the governor in class, 0 of 388 in the reference (invented figures)."""
+    assert m.rate_ratio(5, 200, 0, 388) == pytest.approx(19.4)            # 0 -> 0.5, as Log Ratio
+    assert m.rate_ratio_test(5, 200, 0, 388) == pytest.approx(0.004553, abs=5e-7)
+    low, high = m.rate_ratio_bounds(5, 200, 0, 388)
+    assert low == pytest.approx(2.3642, abs=5e-5) and high == np.inf
+    # a general-rate factor k divides the ratio and its bounds
+    assert m.rate_ratio(6, 100, 3, 100, k=2.0) == pytest.approx(1.0)
+    assert m.rate_ratio_bounds(6, 100, 3, 100, k=2.0)[0] == pytest.approx(m.rate_ratio_bounds(6, 100, 3, 100)[0] / 2)
+
+
+@pytest.mark.parametrize("a, n1, c, n2", RATE_TABLES)
+def test_measures_rate_ratio_bounds_are_clopper_pearson(a, n1, c, n2):
+    """One-sided 95 % bounds = the two-sided 90 % exact interval of the share a / (a + c), mapped
+    to the rate scale (Clopper & Pearson 1934); computed with scipy.stats.binomtest(...).proportion_ci."""
+    if a + c == 0:
+        pytest.skip("no uses")
+    ci = stats.binomtest(a, a + c).proportion_ci(confidence_level=0.90, method="exact")
+    scale = n2 / n1
+    low, high = m.rate_ratio_bounds(a, n1, c, n2, level=0.95)
+    want_low = ci.low / (1 - ci.low) * scale
+    assert low == pytest.approx(want_low, rel=1e-6, abs=1e-12)
+    if c == 0:
+        assert high == np.inf
+    else:
+        assert high == pytest.approx(ci.high / (1 - ci.high) * scale, rel=1e-6)
+
+
+@pytest.mark.parametrize("a, n1, c, n2", [t for t in RATE_TABLES if t[0] > 0])
+def test_measures_rate_ratio_low_bound_agrees_with_the_test(a, n1, c, n2):
+    """The lower bound is at least 1 exactly when the one-sided test rejects at 5 %."""
+    low, _ = m.rate_ratio_bounds(a, n1, c, n2, level=0.95)
+    assert (low >= 1) == (m.rate_ratio_test(a, n1, c, n2) <= 0.05)
+
+
+def test_measures_share_upper_bound_rule_of_three():
+    """No native use in n: the exact one-sided 95 % bound is 1 - 0.05 ** (1 / n), close to the
+    "rule of three" 3 / n (Hanley & Lippman-Hand 1983 [from memory])."""
+    assert m.share_upper_bound(0, 388) == pytest.approx(1 - 0.05 ** (1 / 388), rel=1e-9)
+    assert m.share_upper_bound(0, 388) == pytest.approx(0.007691, abs=5e-7)
+    assert m.share_upper_bound(0, 388) == pytest.approx(3 / 388, rel=0.01)
+    ci = stats.binomtest(7, 120).proportion_ci(confidence_level=0.90, method="exact")
+    assert m.share_upper_bound(7, 120) == pytest.approx(ci.high, rel=1e-6)
+    assert m.share_upper_bound(0, 0) == 1.0 and m.share_upper_bound(5, 5) == 1.0
+
+
+def test_measures_fisher_less_matches_scipy():
+    """Under-use: P(X <= a) of Fisher's exact test; computed with scipy.stats.fisher_exact."""
+    for a, n1, c, n2 in [(0, 40, 60, 100), (3, 50, 40, 120), (10, 20, 2, 30)]:
+        want = stats.fisher_exact([[a, n1 - a], [c, n2 - c]], alternative="less").pvalue
+        assert m.fisher_less(a, n1, c, n2) == pytest.approx(want, rel=1e-9)

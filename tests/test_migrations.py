@@ -344,7 +344,7 @@ elif args["mode"] == "in_transaction":
     Workspace._insert_records = slow_insert
 
 pipeline.scan(args["folder"], class_name=args["class"], term=args["term"], workspace=args["workspace"],
-              references=[args["reference"]], thresholds=Thresholds(min_reference=2, min_g2=3.84),
+              references=[args["reference"]], thresholds=Thresholds(min_reference=2),
               term_start="2026-04-13", processes=1)
 flag.write_text("finished")
 """
@@ -368,7 +368,7 @@ def first_scan(tmp_path_factory):
                                build_date="2026-01-05")
     ws = base / "ws"
     result = scan(write_folder(base / "first", FIRST), class_name=CLASS, term=TERM, workspace=ws,
-                  references=[str(tiny_ref)], thresholds=Thresholds(min_reference=2, min_g2=3.84),
+                  references=[str(tiny_ref)], thresholds=Thresholds(min_reference=2),
                   term_start="2026-04-13", processes=1)
     second = write_folder(base / "second", {**FIRST, **MORE})
     return {"ref": tiny_ref, "ws": ws, "result": result, "second": second}
@@ -436,7 +436,7 @@ def test_migrations_scan_killed_half_way_leaves_previous_run_intact(first_scan, 
     from hingeword.pipeline import scan
 
     again = scan(first_scan["second"], class_name=CLASS, term=TERM, workspace=ws,
-                 references=[str(first_scan["ref"])], thresholds=Thresholds(min_reference=2, min_g2=3.84),
+                 references=[str(first_scan["ref"])], thresholds=Thresholds(min_reference=2),
                  term_start="2026-04-13", processes=1)
     assert again.parse_stats.from_cache >= 3
     after = snapshot(ws)

@@ -27,6 +27,7 @@ from hingeword.extract import Attachment
 from hingeword.history import Workspace
 from hingeword.ingest import Essay, Skipped
 from hingeword.record import PatternRecord
+from hingeword.score import Thresholds
 from hingeword.report import (
     SentenceView,
     answer_key,
@@ -156,8 +157,7 @@ FIGURES = [
     fig("discuss", "VERB", "-", 0, 0, 5, 251, 320, 15.3, -6.0, 0.0, "under-used"),
 ]
 
-SETTINGS = {"min_count": 2, "min_writers": 2, "min_reference": 20, "min_g2": 10.83, "min_log_ratio": 1.0,
-            "measure": "oe", "term_start": "2026-01-10"}
+SETTINGS = {**Thresholds(min_count=2).as_dict(), "term_start": "2026-01-10"}
 REFERENCE = {"name": "brown", "words": 1012528, "source": "Brown corpus sample texts", "licence": "see PROVENANCE",
              "limits": "American English printed in 1961; no learner-age topics."}
 

@@ -154,7 +154,7 @@ def scan(
     manifest: Optional[Path] = typer.Option(None, "--manifest", help="CSV with columns file,writer[,l1,level,task]."),
     model: Optional[str] = typer.Option(None, "--model", help="spaCy pipeline (package name or path)."),
     processes: Optional[int] = typer.Option(None, "--processes", min=1, help="Parser processes (default: all cores)."),
-    reference: list[str] = typer.Option([], "--reference", help="Reference name or folder (repeatable; default: brown)."),
+    reference: list[str] = typer.Option([], "--reference", help="Reference name or folder (repeatable; default: brown and contemporary combined)."),
     term_start: Optional[str] = typer.Option(None, "--term-start", help="First day of the term, YYYY-MM-DD (orders terms; default: today)."),
     l1: Optional[str] = typer.Option(None, "--l1", help="Learners' first language (ISO 639-1) when the manifest has none."),
     rules: list[Path] = typer.Option([], "--rules", help="Extra rules folder overlaying the bundled rules (repeatable)."),

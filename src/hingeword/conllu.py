@@ -26,7 +26,8 @@ an ADP that is itself ``obl``/``nmod``         (lemma of its head, UPOS, its for
 topic we talked *about*")
 ``compound:prt`` child *p* of *h*              (lemma of *h*, UPOS of *h*, form of *p*)
                                                — *particle*
-``obj`` child of a VERB *h*                    (lemma of *h*, VERB, ``-``) — *object*
+``obj`` child of a VERB *h* (or ``iobj``       (lemma of *h*, VERB, ``-``) — *object*
+without an ``obj``; see below)
 =============================================  ========================================
 
 Filters shared with extraction:
@@ -38,6 +39,11 @@ Filters shared with extraction:
   or a clock time ("at 5 pm", "at 10:30");
 * "than", prepositions that are not alphabetic ("'s", "b/c") and the possessive
   ``case`` (a PART, or the case of an ``nmod:poss``) are left out;
+* the direct object follows the parser's scheme where UD's differs: an ``iobj``
+  without an ``obj`` ("tell *me* that ...") is the object; UD's object that is a
+  wh-word heading a free relative ("know *what* you mean") or the subject of a
+  bare-infinitive or participle complement ("let *him* go", "got *it* fixed") is
+  none (the parser reads a ``ccomp`` with its own subject);
 * ``mark`` is otherwise never a preposition (infinitival "to", "that", "if",
   "because" + a finite clause);
 * a ``case`` word with ``fixed`` children outside :data:`extract.MULTIWORD` is a
@@ -206,6 +212,23 @@ def _multiword_at(forms: list[str], i: int) -> tuple[str, ...] | None:
     return None
 
 
+def _free_relative(tree: _Tree, obj: list[str]) -> bool:
+    """"know *what* you mean", "know *how* it works": UD makes the wh-word the object
+    and hangs the clause on it (``acl:relcl``); the parser reads a ``ccomp``, no object."""
+    wh = "PronType=Rel" in obj[FEATS] or "PronType=Int" in obj[FEATS]
+    return wh and any(c[DEPREL].endswith(":relcl") for c in tree.children.get(obj[ID], []))
+
+
+def _small_clause_subject(tree: _Tree, siblings: list[list[str]]) -> bool:
+    """"let *him* go", "made *me* realize", "got *it* fixed": UD's object of the verb with
+    a bare-infinitive or participle ``xcomp`` is the subject of a ``ccomp`` for the parser."""
+    for c in siblings:
+        if c[DEPREL] == "xcomp" and c[XPOS] in ("VB", "VBN"):
+            if not any(m[DEPREL] == "mark" and m[FORM].lower() == "to" for m in tree.children.get(c[ID], [])):
+                return True
+    return False
+
+
 def sentence_attachments(rows: list[list[str]]) -> list[GoldAttachment]:
     """Every key of one gold sentence, in word order (see the module docstring)."""
     tree = _Tree(rows)
@@ -279,10 +302,16 @@ def sentence_attachments(rows: list[list[str]]) -> list[GoldAttachment]:
             gov = tree.governor(tree.head(r))
             if gov is not None and _is_alpha(form):
                 add(gov, form, "particle", (r[ID],))
-        elif rel == "obj":
+        elif rel == "obj" or rel == "iobj":
             gov = tree.governor(tree.head(r))
-            if gov is not None and gov[UPOS] == "VERB":
-                add(gov, "-", "object", (r[ID],))
+            if gov is None or gov[UPOS] != "VERB":
+                continue
+            siblings = tree.children.get(gov[ID], [])
+            if rel == "iobj" and any(c[DEPREL] == "obj" for c in siblings):
+                continue  # "give her a book": the parser's dative, no key
+            if _free_relative(tree, r) or _small_clause_subject(tree, siblings):
+                continue
+            add(gov, "-", "object", (r[ID],))
     order = {r[ID]: i for i, r in enumerate(rows)}
     out.sort(key=lambda a: (order[a.gov_id], order[a.prep_ids[0]], a.preposition))
     return out

@@ -22,7 +22,10 @@ def pattern_lines(records: Sequence[PatternRecord]) -> list[str]:
         lines.append(
             f"{r.label:<24} {r.learner_count:>3}× by {plural(r.learner_writers, 'writer')} "
             f"({100 * r.learner_share:.0f}% of {r.governor}); native {r.reference_count} of "
-            f"{r.reference_governor_count} ({100 * r.reference_share:.1f}%); LR {r.log_ratio:+.1f}, G2 {r.log_likelihood:.1f}"
+            f"{r.reference_governor_count} ({100 * r.reference_share:.1f}%); rate ×{r.rate_ratio:.1f} (at least "
+            f"×{r.rate_ratio_low:.1f})"
+            + (f"; pooled over {plural(r.pooled_classes, 'class-term')}: {r.pooled_count}× by "
+               f"{plural(r.pooled_writers, 'writer')}" if r.evidence == "workspace" else "")
         )
     return lines
 

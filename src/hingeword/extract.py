@@ -14,7 +14,10 @@ English pipelines use them):
 * multiword prepositions (:data:`MULTIWORD`) are kept whole and attach to the
   governor of the phrase ("stood *in front of* the house" → stand + "in front of");
 * a direct object (``dobj``) of a verb gives the zero-preposition slot ``-``,
-  so that "listen music" and "discuss about" compare against the same governor;
+  so that "listen music" and "discuss about" compare against the same governor —
+  except an "object" that is an adverb ("went *home*" mis-labelled) or a time
+  expression ("waited *a long time*", "stayed *a week*"): those measure, they are not
+  what the verb takes, and counting them makes intransitive verbs look transitive;
 * infinitival "to" (tag ``TO``, label ``aux``) is never a preposition;
 * no propagation over coordination: a shared dependent counts for the conjunct
   the parser attaches it to;
@@ -115,17 +118,19 @@ def repaired_pos(token) -> str:
     return pos
 
 
-def governor_of(head):
+def governor_of(head, prep=None):
     """The governor a preposition belongs to, after two structural repairs.
 
     Rule 2 (copula): a preposition the parser hangs on copular "be" (AUX) while
     an adjective complement sits between them belongs to the adjective: "She is
-    very good *at* maths", "I was afraid *about* it" → good/afraid.
+    very good *at* maths", "I was afraid *about* it" → good/afraid. A preposition
+    before the adjective ("*In* my opinion, it is free") modifies the clause, not the
+    adjective: no governor.
     Returns ``None`` when there is no governor of a countable POS.
     """
     if head.pos_ == "AUX":
         comps = [c for c in head.children if c.dep_ == "acomp" and c.pos_ == "ADJ"]
-        if comps:
+        if comps and (prep is None or prep.i > comps[0].i):
             return comps[0]
         return None
     return head if repaired_pos(head) in GOVERNOR_POS else None
@@ -156,6 +161,11 @@ def is_temporal(prep) -> bool:
         if obj.like_num and any(c.lower_ in ("pm", "am", "a.m.", "p.m.", "o'clock") for c in obj.rights):
             return True
     return False
+
+
+def _adverbial_object(obj) -> bool:
+    """A ``dobj`` that is an adverb or a time expression (see the module docstring)."""
+    return obj.pos_ == "ADV" or obj.lemma_.lower() in TIME_WORDS or obj.lower_ in TIME_WORDS
 
 
 def _multiword_at(doc, i: int) -> tuple[str, ...] | None:
@@ -208,7 +218,7 @@ def extract_doc(doc, essay_id: str = "", writer: str = "") -> list[Attachment]:
             if not (span[-1].dep_ in PREP_DEPS and span[-1].head.i not in inside):
                 continue
         consumed |= inside
-        gov = governor_of(heads[0])
+        gov = governor_of(heads[0], span[0])
         if gov is not None:
             out.append(_make(gov, span[0], span[-1], " ".join(seq), "multiword", essay_id, writer))
     for tok in doc:
@@ -236,10 +246,10 @@ def extract_doc(doc, essay_id: str = "", writer: str = "") -> list[Attachment]:
             word = tok.lower_
             if not word.isalpha() or word in _EXCLUDED_PREPS or is_temporal(tok):
                 continue
-            gov = governor_of(head)
+            gov = governor_of(head, tok)
             if gov is not None:
                 out.append(_make(gov, tok, tok, word, relation, essay_id, writer))
-        elif dep == "dobj" and repaired_pos(head) == "VERB":
+        elif dep == "dobj" and repaired_pos(head) == "VERB" and not _adverbial_object(tok):
             # the slot spans the object phrase up to its head ("the radio"), so a
             # suggested preposition can be inserted at its start
             first = tok.left_edge if tok.left_edge.i > head.i else tok

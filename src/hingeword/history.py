@@ -675,6 +675,17 @@ class Workspace:
         return [Attachment(**dict(zip(names, r))) for r in rows]
 
     @_translated
+    def pattern_counts(self, run_ids: Sequence[int]) -> list[tuple[int, str, str, str, str, str, int]]:
+        """Uses per (run, class, writer, governor, POS, preposition) over the given runs (for pooled evidence)."""
+        if not run_ids:
+            return []
+        marks = ", ".join("?" * len(run_ids))
+        return [tuple(r) for r in self.conn.execute(
+            f"SELECT a.run_id, r.class, a.writer, a.governor, a.governor_pos, a.preposition, COUNT(*) FROM attachments a "
+            f"JOIN runs r ON r.id = a.run_id WHERE a.run_id IN ({marks}) "
+            "GROUP BY a.run_id, r.class, a.writer, a.governor, a.governor_pos, a.preposition", list(run_ids))]
+
+    @_translated
     def records(self, run_id: int) -> list[PatternRecord]:
         """The run's scored patterns as stored (without decisions or comparison)."""
         rows = self.conn.execute(

@@ -1,4 +1,4 @@
-"""Pattern counts of a class, and typo-tolerant grouping of governors.
+"""Pattern counts of a class (or of a pool of classes), and typo-tolerant grouping of governors.
 
 A pattern is (governor lemma, governor POS, preposition). ``learner_governor_count``
 is the number of attachments of that governor to any slot (all prepositions, the
@@ -11,7 +11,7 @@ from __future__ import annotations
 import re
 from collections import Counter, defaultdict
 from collections.abc import Collection, Iterable, Mapping
-from dataclasses import replace
+from dataclasses import dataclass, field, replace
 
 import pandas as pd
 from rapidfuzz import fuzz, process
@@ -53,6 +53,83 @@ def spelling_key(word: str) -> str:
     for pattern, repl in _VARIANTS:
         out = re.sub(pattern, repl, out)
     return out
+Key = tuple[str, str, str]
+
+
+@dataclass
+class Tally:
+    """The counts the flag decision needs from a body of learner writing.
+
+    ``writer_uses[key][writer]``: a pattern's uses per writer (writers of a pool are
+    "class\x1fwriter", so two classes' "S01" stay two people); ``governors``: each
+    governor's uses with any slot (R1); ``slots``: uses of each (POS, preposition) with any
+    governor of that POS; ``pos_totals``: all attachments of governors of each POS;
+    ``sources[key]``: the class-terms (runs) of a pool in which the pattern occurs.
+    """
+
+    writer_uses: dict[Key, Counter] = field(default_factory=lambda: defaultdict(Counter))
+    governors: Counter = field(default_factory=Counter)
+    governor_writers: dict[tuple[str, str], set] = field(default_factory=lambda: defaultdict(set))
+    slots: Counter = field(default_factory=Counter)
+    pos_totals: Counter = field(default_factory=Counter)
+    words: int = 0
+    classes: int = 1
+    sources: dict[Key, set] = field(default_factory=lambda: defaultdict(set))
+
+    def add(self, writer: str, key: Key, n: int = 1, source: object = "") -> None:
+        g, pos, prep = key
+        self.sources[key].add(source)
+        self.writer_uses[key][writer] += n
+        self.governors[(g, pos)] += n
+        self.governor_writers[(g, pos)].add(writer)
+        self.slots[(pos, prep)] += n
+        self.pos_totals[pos] += n
+
+    @classmethod
+    def from_attachments(cls, attachments: Iterable[Attachment], *, words: int = 0) -> Tally:
+        t = cls(words=words)
+        for a in attachments:
+            t.add(a.writer, a.key)
+        return t
+
+    @classmethod
+    def from_rows(cls, rows: Iterable[tuple], *, words: int = 0, classes: int = 0) -> Tally:
+        """From stored counts: (run id, class, writer, governor, POS, preposition, uses); the
+        run id names the class-term (a row without it counts its class as the class-term)."""
+        t = cls(words=words, classes=classes)
+        for row in rows:
+            run, class_name, writer, g, pos, prep, n = row if len(row) == 7 else (row[0], *row)
+            t.add(f"{class_name}\x1f{writer}", (g, pos, prep), int(n), source=run)
+        return t
+
+    def merged(self, other: Tally, *, as_class: str = "") -> Tally:
+        """This tally plus ``other`` (whose writers are prefixed with ``as_class``; ``other``
+        is one more class-term)."""
+        t = Tally(words=self.words + other.words, classes=self.classes + other.classes)
+        for tally, prefix in ((self, ""), (other, f"{as_class}\x1f" if as_class else "")):
+            for key, per in tally.writer_uses.items():
+                for w, n in per.items():
+                    t.add(prefix + w, key, n)
+        t.sources = defaultdict(set)
+        for key in self.writer_uses:
+            t.sources[key] |= self.sources.get(key) or {""}
+        for key in other.writer_uses:
+            t.sources[key].add(("this class-term", as_class))
+        return t
+
+    def occurs_in(self, key: Key) -> int:
+        """In how many class-terms the pattern occurs (1 outside a pool)."""
+        return max(1, len(self.sources.get(key, ())))
+
+    def count(self, key: Key) -> int:
+        return sum(self.writer_uses.get(key, {}).values())
+
+    def writers(self, key: Key) -> int:
+        return len(self.writer_uses.get(key, {}))
+
+    def top_writer_uses(self, key: Key) -> int:
+        per = self.writer_uses.get(key)
+        return max(per.values()) if per else 0
 
 
 def count_patterns(attachments: Iterable[Attachment]) -> pd.DataFrame:

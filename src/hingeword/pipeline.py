@@ -18,9 +18,9 @@ from .extract import extract_doc
 from .history import Workspace
 from .ingest import IngestResult, Skipped, read_essays
 from .parse import ModelInfo, ParseStats, default_processes, load_model, parse_texts
-from .patterns import GovernorMap, count_patterns, group_governors
+from .patterns import GovernorMap, Tally, group_governors
 from .record import PatternRecord
-from .score import Thresholds
+from .score import Pool, Thresholds
 
 log = logging.getLogger("hingeword")
 
@@ -85,6 +85,17 @@ def within_parser_limit(ingest: IngestResult, max_length: int) -> IngestResult:
                    duplicates=[g for g in (tuple(i for i in grp if i not in ids) for grp in ingest.duplicates)
                                if len(g) > 1],
                    near_duplicates=[n for n in ingest.near_duplicates if n.first not in ids and n.second not in ids])
+def pooled_tally(ws: Workspace, class_name: str, term: str, scope: Pool, tally: Tally) -> Tally | None:
+    """This run's counts plus those of the workspace's other runs in ``scope`` (``None`` when there are none)."""
+    if scope is Pool.NONE:
+        return None
+    runs = ws.runs() if scope is Pool.WORKSPACE else ws.runs_in_order(class_name)
+    others = [r for r in runs if (r.class_name, r.term) != (class_name, term)]
+    if not others:
+        return None
+    stored = Tally.from_rows(ws.pattern_counts([r.id for r in others]), words=sum(r.words for r in others),
+                             classes=len(others))
+    return stored.merged(tally, as_class=class_name)
 
 
 def scan(
@@ -151,7 +162,10 @@ def scan(
         say("score")
         keep = sorted({k.strip().lower() for k in keep_spelling if k.strip()})
         attachments, groups = group_governors(attachments, reference.lemmas, words=rules.words, keep=keep)
-        records = score_patterns(count_patterns(attachments), attachments, reference, thresholds)
+        words = sum(e.word_count for e in ingest.essays)
+        tally = Tally.from_attachments(attachments, words=words)
+        pool = pooled_tally(ws, class_name, term, thresholds.pool, tally)
+        records = score_patterns(tally, reference, thresholds, pool=pool)
         l1_of = {e.writer: (e.l1 or l1 or "").strip().lower() for e in ingest.essays}
         records = categorise(records, reference, rules, l1_tallies(attachments, l1_of))
         if term_start is None:  # a re-scan keeps the term's recorded start, so term order holds

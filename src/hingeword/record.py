@@ -30,6 +30,8 @@ class Status(str, Enum):
     OVER_USED = "over-used"
     UNDER_USED = "under-used"
     NATIVE_FORM = "over-used (native form)"
+    THIN = "natives rarely use it; too little evidence"
+    ADJUNCT = "the class uses this preposition with every word"
     AS_NATIVE = "as native"
     NO_REFERENCE = "not enough reference evidence"
     CONCENTRATED = "concentrated in one or two writers"
@@ -44,6 +46,9 @@ STATUS_GLOSSES = {
     Status.OVER_USED: "the class uses this far more than native writers, who avoid it",
     Status.UNDER_USED: "native writers use this much more often than the class",
     Status.NATIVE_FORM: "the class uses it more than native writers, but natives use it too: not flagged",
+    Status.THIN: "native writers rarely use it, but there are too few uses here to be sure the class differs",
+    Status.ADJUNCT: "the class uses this preposition more than native writers with all words alike: "
+                    "a matter of style, not of this word",
     Status.AS_NATIVE: "no clear difference from native writers",
     Status.NO_REFERENCE: "the native reference has too few uses of this word to compare",
     Status.CONCENTRATED: "used enough, but almost all by one or two writers: a personal habit, not a class pattern",
@@ -177,6 +182,22 @@ class PatternRecord(Keyed):
     z_reference: float = _f("z-score in the reference")
     g2_learner: float = _f("G2 association of governor and preposition in the class")
     g2_reference: float = _f("G2 association of governor and preposition in the reference")
+    rate_ratio: float = _f("how many times the native rate the learners use the form, allowing for their general "
+                           "rate of the preposition (general_rate_factor)")
+    rate_ratio_low: float = _f("one-sided lower confidence bound of rate_ratio (the flag needs it >= min_rate_ratio)")
+    rate_ratio_high: float = _f("one-sided upper confidence bound of rate_ratio")
+    rate_p: float = _f("p of the exact test that the learners' rate exceeds the natives' (conditional binomial)")
+    native_oe: float = _f("natives' use of the preposition with this governor over their use of it with all "
+                          "governors of the same kind (below 1: natives avoid it here)")
+    general_rate_factor: float = _f("learners' rate of the preposition with governors of this kind over the "
+                                    "natives' (at least 1)")
+    top_writer_share: float = _f("share of the pattern's uses by the writer who uses it most")
+    evidence: str = _f("where the flag's evidence comes from: 'class', or 'workspace' (pooled)", default="")
+    pooled_count: int = _f("uses in the pooled evidence (equal to learner_count without pooling)", default=0)
+    pooled_writers: int = _f("writers in the pooled evidence", default=0)
+    pooled_governor_count: int = _f("uses of the governor in the pooled evidence", default=0)
+    pooled_classes: int = _f("class-terms of the workspace in which the pattern occurs (1 without pooling)", default=1)
+    rank_score: float = _f("order of the flagged patterns: log2 of rate_ratio_low")
     advice: Advice | None = None
     decision: Decision | None = None
     comparison: Comparison | None = None
@@ -256,7 +277,7 @@ class PatternRecord(Keyed):
 
 _SCORE_FIELDS = tuple(f for f in fields(PatternRecord) if f.name not in ("advice", "decision", "comparison"))
 _INT_FIELDS = ("learner_count", "learner_writers", "learner_governor_count", "reference_count",
-               "reference_governor_count")
+               "reference_governor_count", "pooled_count", "pooled_writers", "pooled_governor_count", "pooled_classes")
 _FLOAT_FIELDS = tuple(f.name for f in _SCORE_FIELDS if f.type in ("float", float))
 
 #: Columns of the flat form and of every export, in order: the contract columns, the

@@ -42,7 +42,9 @@ from .errors import ReferenceDataError
 log = logging.getLogger("hingeword")
 
 FORMAT_VERSION = 1
-BUNDLED = "brown"
+#: The default reference: Brown (1961 edited prose) and the contemporary many-genre collection,
+#: combined by adding counts. Either can be chosen alone with ``--reference``.
+BUNDLED = ("brown", "contemporary")
 _DATA_FILES = ("patterns.tsv.gz", "lemmas.tsv.gz")
 _CHUNK_CHARS = 20_000
 
@@ -354,12 +356,22 @@ def describe(path: str | Path) -> list[str]:
             val = f"{man[key]:,}" if isinstance(man[key], int) else man[key]
             lines.append(f"{key:<18} {val}")
     lines.append(f"{'path':<18} {path}")
+    if man.get("parts"):
+        lines.append("composition:")
+        for part in man["parts"]:
+            genres = ", ".join(f"{g} {int(v.get('words', 0)):,}" for g, v in sorted(part.get("genres", {}).items()))
+            lines.append(f"  {part.get('source', '?'):<16} {int(part.get('words', 0)):>10,} words  "
+                         f"{part.get('licence', '')}")
+            if genres:
+                lines.append(f"  {'':<16} genres: {genres}")
+            if part.get("citation"):
+                lines.append(f"  {'':<16} cite: {part['citation']}")
     return lines
 
 
 def load_many(names: Sequence[str], workspace: str | Path | None = None) -> Reference:
     """Load and combine references by adding counts; the manifest lists the parts."""
-    names = list(names) or [BUNDLED]
+    names = list(names) or list(BUNDLED)
     refs = [load(resolve(n, workspace)) for n in names]
     if len(refs) == 1:
         return refs[0]

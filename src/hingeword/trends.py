@@ -13,6 +13,11 @@ Its status in term *t*:
                writers or instances to flag, but no sign of improvement);
 ``-``          not flagged yet.
 
+"Flagged" here means flagged on the class's own evidence: a flag that rests on the
+workspace's other classes (pooled evidence, ``evidence = "workspace"``) says the pattern is
+a workspace-wide problem, not that this class still writes it often, so a pattern a class
+used once after six times is "fading" even when the pool keeps it on the handout.
+
 Dismissed patterns keep their figures but are marked, and left out of charts.
 
 This stage also compares one run with the previous term of its class
@@ -67,12 +72,17 @@ class Trends:
     patterns: list[PatternTrend]
 
 
+def _own_flag(record) -> bool:
+    """Flagged on the class's own evidence (see the module docstring)."""
+    return bool(record is not None and record.flagged and record.evidence != "workspace")
+
+
 def compute_trends(ws: Workspace, class_name: str) -> Trends:
     """Per pattern and term: count, writers, rate per 10,000 words, flag and status."""
     ws.require_class(class_name)
     runs = ws.runs_in_order(class_name)
     figs = [{r.key: r for r in ws.records(run.id)} for run in runs]
-    tracked = sorted({k for fig in figs for k, f in fig.items() if f.flagged})
+    tracked = sorted({k for fig in figs for k, f in fig.items() if _own_flag(f)})
     decisions = ws.decisions_for(class_name)
     patterns = []
     for key in tracked:
@@ -83,7 +93,7 @@ def compute_trends(ws: Workspace, class_name: str) -> Trends:
             f = fig.get(key)
             count = f.learner_count if f else 0
             writers = f.learner_writers if f else 0
-            flagged = bool(f and f.flagged)
+            flagged = _own_flag(f)
             rate = per_10k(count, run.words)
             if flagged:
                 status = "recurring" if flagged_before else "new"

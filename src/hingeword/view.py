@@ -44,7 +44,7 @@ class RunView:
     @property
     def thresholds(self) -> Thresholds:
         """The thresholds the run was scored with (run settings minus term facts)."""
-        return Thresholds.from_mapping(self.run.settings, ignore=_RUN_FACTS)
+        return Thresholds.from_mapping(self.run.settings, ignore=_RUN_FACTS, strict=False)
 
     @property
     def teachable(self) -> list[PatternRecord]:

@@ -131,6 +131,8 @@ def build_handout_context(view: RunView, *, top: int = 5, today: str, teacher: b
             "reason": learner_reason(r), "explanation": (r.advice.explanation if r.advice else "") or None,
             "since": since_for_learners(r, teacher),
             "writers": r.learner_writers,
+            "other_classes": (f"{r.pooled_writers - r.learner_writers} more in other classes"
+                              if r.evidence == "workspace" and r.pooled_writers > r.learner_writers else None),
             "examples": [{"segments": v.segments} for v in examples],
             "practice": item,
         })

@@ -12,7 +12,8 @@ from markupsafe import Markup
 
 from .. import __version__
 from ..export import kwic
-from ..record import PatternRecord, Status, key_label, plain_label
+from ..record import STATUS_GLOSSES, PatternRecord, Status, key_label, plain_label
+from ..score import describe_settings
 from ..view import RunView
 from .context import by_key, common_context, native_of, since_for_teachers
 from .text import fmt_dec, fmt_int, fmt_ratio, fmt_share
@@ -132,6 +133,23 @@ def spelling_groups(view: RunView) -> list[dict]:
                      "uses": fmt_int(g["uses"]), "writers": fmt_int(len(g["writers"])),
                      "undo": " ".join(f"--keep-spelling {f}" for f in forms)})
     return rows
+def evidence_words(r: PatternRecord) -> str | None:
+    """Where a flag's evidence comes from, when it is not this class alone."""
+    if r.evidence != "workspace":
+        return None
+    classes = r.pooled_classes
+    return (f"In this class: {fmt_int(r.learner_count)} {'use' if r.learner_count == 1 else 'uses'} by "
+            f"{fmt_int(r.learner_writers)} {'writer' if r.learner_writers == 1 else 'writers'}; across "
+            f"{fmt_int(classes)} class-terms of this workspace: {fmt_int(r.pooled_count)} uses by "
+            f"{fmt_int(r.pooled_writers)} writers (the flag rests on all of them)")
+
+
+def strength_words(r: PatternRecord, confidence: float) -> str | None:
+    """The rate ratio in words: "about 19 times as often as native writers would (at least 2.4 times, 95 % sure)"."""
+    if not r.flagged or r.rate_ratio != r.rate_ratio:
+        return None
+    return (f"about {fmt_ratio(r.rate_ratio)} times as often as native writers would "
+            f"(at least {fmt_ratio(r.rate_ratio_low)} times, with {confidence:.0%} confidence)")
 
 
 def build_overview_context(view: RunView, *, names: str = "pseudonyms", today: str) -> dict:
@@ -171,14 +189,17 @@ def build_overview_context(view: RunView, *, names: str = "pseudonyms", today: s
             "summary": (f"{fmt_int(r.learner_count)} times by {fmt_int(r.learner_writers)} writers; "
                         f"{fmt_share(r.learner_share)} of the class's uses of '{r.governor}' "
                         f"against {fmt_share(r.reference_share)} in the reference"),
+            "evidence": evidence_words(r),
+            "strength": strength_words(r, view.thresholds.confidence),
             "kwic": lines, "kwic_more": max(0, len(atts) - len(lines)),
         })
     dismissed = [{"pattern": key_label(r.governor, r.preposition),
                   "reason": r.decision.reason or "no reason given",
                   "date": r.decision.decided_on} for r in records if r.decision is not None]
     statuses = [(str(s), sum(1 for r in records if r.status is s)) for s in Status]
+    glosses = [(str(s), STATUS_GLOSSES[s]) for s, c in zip(Status, (c for _, c in statuses)) if c]
     run = view.run
-    thresholds = view.thresholds.describe()
+    thresholds = describe_settings(run.settings)
     if run.settings.get("term_start"):
         thresholds.append(("Term start", str(run.settings["term_start"])))
     return {
@@ -193,6 +214,7 @@ def build_overview_context(view: RunView, *, names: str = "pseudonyms", today: s
         "thresholds": thresholds,
         "summary": {"patterns": len(records), "flagged": len(flagged), "dismissed": len(dismissed),
                     "statuses": [(s, c) for s, c in statuses if c]},
+        "status_glosses": glosses,
         "rows": [_row(r) for r in records],
         "flagged": flagged, "dismissed": dismissed,
         "skipped": [{"source": label(s.source), "reason": rename(s.reason)} for s in view.skipped],
