@@ -74,3 +74,79 @@ def test_causes_records_gain_advice_and_export_fields(cat):
     assert row["cause"] == "noun-pattern" and row["suggestion"] == "discuss + direct object"
     assert row["causes"] and all({"code", "confidence", "evidence", "label"} <= set(c) for c in row["causes"])
     assert out[1].advice is None and out[1].to_row()["cause"] == "" and out[1].to_row()["suggestion"] == ""
+
+
+# --- suggestions that fit the object (an invented reference with object classes) ---------------
+
+
+def _object_reference() -> Reference:
+    rows = {  # (governor, POS, slot, object class): count — invented, shaped like native use
+        ("arrive", "VERB", "at", "building"): 30, ("arrive", "VERB", "at", "idea"): 25,
+        ("arrive", "VERB", "at", "place"): 4, ("arrive", "VERB", "in", "place"): 35,
+        ("arrive", "VERB", "in", "name"): 12, ("arrive", "VERB", "at", "name"): 1,
+        ("arrive", "VERB", "in", "time"): 3, ("arrive", "VERB", "to", "place"): 1,
+        ("good", "ADJ", "at", "event"): 20, ("good", "ADJ", "for", "nature"): 15, ("good", "ADJ", "for", "person"): 4,
+        ("good", "ADJ", "with", "person"): 12, ("good", "ADJ", "at", "idea"): 6,
+        ("depend", "VERB", "on", "person"): 20, ("depend", "VERB", "on", "idea"): 30,
+    }
+    patterns: Counter = Counter()
+    for (g, pos, prep, _cls), n in rows.items():
+        patterns[(g, pos, prep)] += n
+    return Reference(manifest={"name": "objects"}, patterns=patterns, objects=Counter(rows))
+
+
+@pytest.fixture
+def ocat():
+    return Categoriser(_object_reference(), load_rules())
+
+
+def test_causes_suggestion_fits_a_city_object(ocat):
+    # "arrive to Rome / Tokyo": natives arrive *in* a city, although "arrive at" is the verb's usual slot
+    advice = ocat.advise("arrive", "VERB", "to", ocat.categorise("arrive", "VERB", "to"), {"place": 5})
+    assert advice.suggested_preposition == "in" and advice.suggestion == "arrive in"
+    assert advice.native_pattern == "arrive in a place (a city, a country)"
+    assert advice.preposition_for("place") == "in"
+    assert "arrive in a place" in advice.explanation and "not 'arrive to something'" in advice.explanation
+
+
+def test_causes_suggestion_names_both_when_both_apply(ocat):
+    advice = ocat.advise("arrive", "VERB", "to", (), {"place": 4, "building": 2, "name": 1})
+    assert advice.by_object == (("place", "in"), ("building", "at"), ("name", "in"))
+    assert advice.native_pattern == "arrive in a place (a city, a country), at a building or object"
+    assert [advice.preposition_for(c) for c in ("place", "building", "name")] == ["in", "at", "in"]
+
+
+def test_causes_suggestion_without_enough_evidence_for_the_object_is_the_usual_slot(ocat):
+    # "time" has 3 native uses (< MIN_CLASS_COUNT): the verb's usual slot; one class alone gives plain advice
+    advice = ocat.advise("arrive", "VERB", "to", (), {"time": 2})
+    assert advice.by_object == () and advice.native_pattern == "arrive at something"
+    # a class with evidence and one without: the rest take the usual slot, said as "something else"
+    advice = ocat.advise("arrive", "VERB", "to", (), {"place": 3, "time": 1})
+    assert advice.by_object == (("place", "in"), ("any other", "at"))
+    assert advice.preposition_for("time") == "at" and advice.preposition_for("place") == "in"
+    assert advice.native_pattern == "arrive in a place (a city, a country), at something else"
+
+
+@pytest.mark.parametrize("classes,slot,native", [
+    ({"event": 3}, "at", "be good at something"),  # "good at swimming": the usual slot, plain words
+    ({"person": 3}, "with", "be good with a person"),  # "good with children"
+    ({"nature": 2}, "for", "be good for a living thing or substance"),  # "good for your health"
+])
+def test_causes_suggestion_good_at_for_with(ocat, classes, slot, native):
+    advice = ocat.advise("good", "ADJ", "in", (), classes)
+    assert advice.suggested_preposition == slot and advice.native_pattern == native
+
+
+def test_causes_suggestion_depend_on_whatever_the_object(ocat):
+    for classes in ({"person": 3}, {"idea": 2, "person": 1}, {"other": 4}):
+        advice = ocat.advise("depend", "VERB", "of", (), classes)
+        assert advice.suggested_preposition == "on" and advice.by_object == ()
+        assert advice.native_pattern == "depend on something"
+
+
+def test_causes_record_round_trips_the_slots_by_object(ocat):
+    rec = PatternRecord("arrive", "VERB", "to", flagged=True, status=Status.OVER_USED)
+    [out] = categorise([rec], ocat.ref, ocat.rules, {}, {rec.key: Counter({"place": 3, "building": 1})})
+    row = out.to_row()
+    assert row["suggestion_by_object"] == "place: in; building: at"
+    assert PatternRecord.from_row(row).advice == out.advice

@@ -359,13 +359,15 @@ def test_report_overview_context_rows_flagged_first_with_figures(data):
     ctx = build_overview_context(data, today=TODAY)
     pats = [r["pattern"] for r in ctx["rows"]]
     assert pats[:5] == ["discuss about", "depend of", "listen + object", "emphasize on", "enter into"]
-    assert pats[5:] == ["discuss + object", "interested in"]  # then by status order: under-used, as native
+    assert pats[5:] == ["interested in"]  # then by status order (as native); unused native forms apart:
+    assert [r["pattern"] for r in ctx["unused_rows"]] == ["discuss + object"]
+    assert ctx["summary"]["patterns"] == 6 and ctx["summary"]["not_used"] == 1
     row = ctx["rows"][0]
     assert (row["learner_count"], row["reference_governor_count"], row["collocation_ratio"], row["log_likelihood"],
             row["log_ratio"], row["learner_share"], row["reference_share"]) == (
         "5", "320", "324", "48.9", "+8.64", "100%", "0.3%")
     assert ctx["rows"][4]["status"] == "over-used (dismissed)"
-    assert ctx["rows"][5]["log_ratio"] == "−6.00"
+    assert ctx["unused_rows"][0]["log_ratio"] == "−6.00"
     assert [f["pattern"] for f in ctx["flagged"]] == ["discuss about", "depend of", "listen + object", "emphasize on"]
     dep = ctx["flagged"][1]
     assert [c["label"] for c in dep["causes"]] == ["by analogy with a related word", "from the first language"]
@@ -480,11 +482,16 @@ def test_report_overview_headings_tables_and_caution(written):
     h2 = [h.get_text() for h in soup.find_all("h2")]
     assert h2 == ["Read this first", "At a glance", "Flagged patterns", "All patterns", "Dismissed patterns",
                   "Spelling groups", "Essays skipped", "Notes from the scan", "How this was measured"]
-    assert "Flags are candidates for your judgement, not verdicts." in soup.find("aside", class_="caution").get_text()
+    caution = soup.find("aside", class_="caution").get_text()
+    assert "Flags are candidates for your judgement, not verdicts." in caution
+    # how to dismiss, with the pattern spelt as the page spells it, and that the handouts need a rebuild
+    assert "hingeword dismiss discuss about --class 'Evening B2'" in caution
+    assert "change only when you build the reports again" in caution
+    assert "hingeword report --class 'Evening B2' --term '2026 Spring'" in caution
     table = soup.find("table", class_="figures")
     assert [th.get_text() for th in table.thead.find_all("th")] == [
-        "Pattern", "Word class", "In class", "Writers", "Governor in class", "Class share", "In reference",
-        "Governor in reference", "Reference share", "Collocation ratio", "G²", "Log Ratio", "Status"]
+        "Pattern", "Word class", "In class", "Writers", "All uses of the word (class)", "Class share", "In reference",
+        "All uses of the word (reference)", "Reference share", "Collocation ratio", "G²", "Log Ratio", "Status"]
     assert [th.get_text() for th in table.tbody.find_all("th", scope="row")][:2] == ["discuss about", "depend of"]
     assert table.find_parent("div", class_="table-wrap")["tabindex"] == "0"
     text = text_of(written.overview)

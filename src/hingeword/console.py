@@ -48,6 +48,12 @@ def scan_summary(result, top: int) -> list[str]:
         lines.append(f"  spelling: '{lemma}' ({pos}) counted as {target}")
     if result.typo_groups:
         lines.append("  (a word right as written: scan again with --keep-spelling WORD; the overview lists them all)")
+    if getattr(result, "term_note", ""):
+        lines.append(f"  Warning: {result.term_note}")
+    order = getattr(result, "term_order", [])
+    if len(order) > 1:
+        lines.append(f"  terms of {result.class_name} in order: "
+                     + " → ".join(f"{t} ({start})" for t, start in order))
     records = result.records
     used = [r for r in records if r.learner_count > 0]
     flagged = [r for r in records if r.flagged]

@@ -28,10 +28,15 @@ English pipelines use them):
 
 Repairs for learner errors that mislead the small pipeline (each documented in
 :func:`repaired_pos`).
+
+Each attachment also carries the coarse class of its object (:func:`object_class`:
+"arrived in *Rome*" → ``place``, "at the *station*" → ``building``), so that a
+suggestion can follow what native writers do with that kind of object.
 """
 
 from __future__ import annotations
 
+import functools
 import re
 from dataclasses import dataclass
 
@@ -91,6 +96,7 @@ class Attachment:
     prep_start: int
     prep_end: int
     original_governor: str = ""  # lemma before typo grouping, "" if unchanged
+    object_class: str = ""  # coarse class of the object (OBJECT_CLASSES), "" when not recorded
 
     @property
     def key(self) -> tuple[str, str, str]:
@@ -176,7 +182,94 @@ def _multiword_at(doc, i: int) -> tuple[str, ...] | None:
     return None
 
 
-def _make(gov, first, last, prep: str, relation: str, essay_id: str, writer: str) -> Attachment:
+#: Coarse classes of a preposition's object (or of a direct object), with how a learner
+#: reads them: "arrive *in* a place (a city, a country)", "arrive *at* a building".
+OBJECT_CLASSES = {
+    "place": "a place (a city, a country)",
+    "building": "a building or object",
+    "event": "an event or activity",
+    "time": "a time",
+    "person": "a person",
+    "group": "a group or institution",
+    "idea": "an idea, subject or feeling",
+    "nature": "a living thing or substance",
+    "name": "a name (a town, a person)",
+    "other": "something",
+}
+#: WordNet lexicographer file of a noun's first sense (``rules/wordnet/noun_classes.tsv``)
+#: -> coarse class. Natural objects (sea, beach, mountain) read as places.
+_LEXFILE_CLASS = {
+    "location": "place", "object": "place", "artifact": "building",
+    "event": "event", "act": "event", "process": "event", "phenomenon": "event",
+    "time": "time", "person": "person", "group": "group",
+    "cognition": "idea", "communication": "idea", "attribute": "idea", "feeling": "idea", "state": "idea",
+    "motive": "idea", "relation": "idea", "quantity": "idea", "shape": "idea", "possession": "idea",
+    "tops": "idea", "animal": "nature", "plant": "nature", "body": "nature", "food": "nature",
+    "substance": "nature",
+}
+_PERSON_PRONOUNS = frozenset(
+    """me you him her us them myself yourself himself herself ourselves yourselves themselves everyone
+    everybody someone somebody anyone anybody nobody whom who""".split()
+)
+
+
+@functools.lru_cache(maxsize=1)
+def noun_classes() -> dict[str, str]:
+    """The bundled noun -> lexicographer-class table (``rules/wordnet/noun_classes.tsv``), read once."""
+    from .rules import bundled_rules_dir
+
+    path = bundled_rules_dir() / "wordnet" / "noun_classes.tsv"
+    out: dict[str, str] = {}
+    try:
+        lines = path.read_text(encoding="utf-8").splitlines()
+    except OSError:
+        return out
+    for line in lines[2:]:  # a comment line, then the header
+        noun, _, lexfile = line.partition("\t")
+        out[noun] = lexfile
+    return out
+
+
+def object_class(obj) -> str:
+    """The coarse class (:data:`OBJECT_CLASSES`) of an object token, ``None`` giving ``other``.
+
+    A proper noun is a ``place`` when WordNet's first sense of it is a location
+    ("Rome", "New York" with its compound), else a ``name`` (a person or an unknown
+    town alike: no entity recogniser runs); a common noun takes the class of its
+    first WordNet sense; a personal pronoun is a ``person``; a verb (a gerund: "good
+    at *swimming*") an ``event``.
+    """
+    if obj is None:
+        return "other"
+    table = noun_classes()
+    if obj.pos_ == "PROPN":
+        words = [c.lower_ for c in obj.lefts if c.dep_ == "compound" and c.pos_ == "PROPN"] + [obj.lower_]
+        for cand in (" ".join(words), obj.lower_):
+            if table.get(cand) in ("location", "object"):
+                return "place"
+        return "name"
+    if obj.pos_ == "NOUN":
+        lexfile = table.get(obj.lemma_.lower()) or table.get(obj.lower_)
+        return _LEXFILE_CLASS.get(lexfile, "other")
+    if obj.pos_ == "PRON":
+        return "person" if obj.lower_ in _PERSON_PRONOUNS else "other"
+    if obj.pos_ == "VERB" or obj.tag_ == "VBG":
+        return "event"
+    return "other"
+
+
+def _object_of(prep):
+    """The object of a preposition token: its ``pobj`` (or a gerund ``pcomp``), else ``None``."""
+    for c in prep.children:
+        if c.dep_ == "pobj":
+            return c
+    for c in prep.children:
+        if c.dep_ == "pcomp":
+            return c
+    return None
+
+
+def _make(gov, first, last, prep: str, relation: str, essay_id: str, writer: str, obj=None) -> Attachment:
     sent = gov.sent
     return Attachment(
         essay_id=essay_id,
@@ -192,6 +285,7 @@ def _make(gov, first, last, prep: str, relation: str, essay_id: str, writer: str
         gov_end=gov.idx + len(gov.text),
         prep_start=first.idx,
         prep_end=last.idx + len(last.text),
+        object_class=object_class(obj),
     )
 
 
@@ -220,7 +314,8 @@ def extract_doc(doc, essay_id: str = "", writer: str = "") -> list[Attachment]:
         consumed |= inside
         gov = governor_of(heads[0], span[0])
         if gov is not None:
-            out.append(_make(gov, span[0], span[-1], " ".join(seq), "multiword", essay_id, writer))
+            out.append(_make(gov, span[0], span[-1], " ".join(seq), "multiword", essay_id, writer,
+                             _object_of(span[-1])))
     for tok in doc:
         if tok.i in consumed:
             continue
@@ -248,11 +343,11 @@ def extract_doc(doc, essay_id: str = "", writer: str = "") -> list[Attachment]:
                 continue
             gov = governor_of(head, tok)
             if gov is not None:
-                out.append(_make(gov, tok, tok, word, relation, essay_id, writer))
+                out.append(_make(gov, tok, tok, word, relation, essay_id, writer, _object_of(tok)))
         elif dep == "dobj" and repaired_pos(head) == "VERB" and not _adverbial_object(tok):
             # the slot spans the object phrase up to its head ("the radio"), so a
             # suggested preposition can be inserted at its start
             first = tok.left_edge if tok.left_edge.i > head.i else tok
-            out.append(_make(head, first, tok, NO_PREP, "dobj", essay_id, writer))
+            out.append(_make(head, first, tok, NO_PREP, "dobj", essay_id, writer, tok))
     out.sort(key=lambda a: (a.gov_start, a.prep_start, a.preposition))
     return out

@@ -158,6 +158,12 @@ MIGRATIONS: list[tuple[str, str]] = [
         );
         """,
     ),
+    (
+        "0003_object_class",
+        """
+        ALTER TABLE attachments ADD COLUMN object_class TEXT NOT NULL DEFAULT '';
+        """,
+    ),
 ]
 
 #: scope of a decision that applies to every class
