@@ -266,3 +266,24 @@ def test_extract_object_class_of_a_gerund_and_of_a_direct_object():
                ("in", "IN", "ADP", "prep", 3, "in"))
     [a] = extract_doc(doc)
     assert a.key == ("arrive", "VERB", "in") and a.object_class == "other"
+
+
+# --- sentence text: titles and paragraphs the parser glued on are left out ----------------------
+
+
+@pytest.mark.parametrize("text,pattern,expected", [
+    ("My first journey\nWhen we arrived to Rome, it was raining.", "arrived to",
+     "When we arrived to Rome, it was raining."),  # a title glued to the first sentence
+    ("A Journey I Remember\n\nLast year we arrived to Porto.", "arrived to", "Last year we arrived to Porto."),
+    ("We were tired of\nthe long winter.", "tired of", "We were tired of\nthe long winter."),  # a wrapped line
+    ("I went there in\nAugust because we were tired of it.", "tired of",
+     "I went there in\nAugust because we were tired of it."),  # a short wrapped line ending in a function word
+])
+def test_extract_sentence_leaves_out_a_glued_title(text, pattern, expected):
+    from types import SimpleNamespace
+
+    from hingeword.extract import sentence_span
+
+    lo = text.index(pattern)
+    sentence, start = sentence_span(SimpleNamespace(text=text, start_char=100), 100 + lo, 100 + lo + len(pattern))
+    assert sentence == expected and start == 100 + text.index(expected)

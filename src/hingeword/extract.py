@@ -40,6 +40,8 @@ import functools
 import re
 from dataclasses import dataclass
 
+from spacy.lang.en.stop_words import STOP_WORDS
+
 from .record import NO_PREP
 
 GOVERNOR_POS = frozenset({"VERB", "ADJ", "NOUN"})
@@ -269,8 +271,53 @@ def _object_of(prep):
     return None
 
 
+#: A line this short, without closing punctuation, followed by a line break and a capital is a
+#: title or heading the parser glued to the next sentence ("My first job\nWhen I arrived …").
+_TITLE_CHARS = 60
+#: A line ending in one of these ("I went there in\nAugust") is a wrapped sentence, not a title.
+_STOP_WORDS = STOP_WORDS
+_BLANK_LINE = re.compile(r"\n[ \t\r\f\v]*\n")
+
+
+def _line_breaks(text: str) -> list[tuple[int, int]]:
+    """(start, end) of each line break in a sentence's text that ends a piece of its own: a blank
+    line, or the break after a short unpunctuated line (not ending in a function word) when the
+    next line starts with a capital or a digit."""
+    out = [(m.start(), m.end()) for m in _BLANK_LINE.finditer(text)]
+    line_start = 0
+    for i, ch in enumerate(text):
+        if ch != "\n":
+            continue
+        line = text[line_start:i].strip()
+        nxt = text[i + 1:].lstrip()
+        last = line.rsplit(None, 1)[-1].lower() if line else ""
+        if (line and len(line) <= _TITLE_CHARS and line[-1] not in ".,;:-–(" and last not in _STOP_WORDS
+                and (nxt[:1].isupper() or nxt[:1].isdigit())):
+            out.append((i, i + 1))
+        line_start = i + 1
+    return sorted(out)
+
+
+def sentence_span(sent, lo: int, hi: int) -> tuple[str, int]:
+    """The sentence text holding the characters ``lo``..``hi`` of the doc, and its start offset: the
+    parser's sentence, less a title or paragraph it glued on (:func:`_line_breaks`)."""
+    text, start = sent.text, sent.start_char
+    if "\n" not in text:
+        return text, start
+    a, b = lo - start, hi - start
+    cut_lo, cut_hi = 0, len(text)
+    for s_, e_ in _line_breaks(text):
+        if e_ <= a:
+            cut_lo = e_
+        elif s_ >= b and cut_hi == len(text):
+            cut_hi = s_
+    return text[cut_lo:cut_hi], start + cut_lo
+
+
 def _make(gov, first, last, prep: str, relation: str, essay_id: str, writer: str, obj=None) -> Attachment:
     sent = gov.sent
+    lo, hi = min(gov.idx, first.idx), max(gov.idx + len(gov.text), last.idx + len(last.text))
+    sentence, sentence_start = sentence_span(sent, lo, hi)
     return Attachment(
         essay_id=essay_id,
         writer=writer,
@@ -279,8 +326,8 @@ def _make(gov, first, last, prep: str, relation: str, essay_id: str, writer: str
         governor_text=gov.text,
         preposition=prep,
         relation=relation,
-        sentence=sent.text,
-        sentence_start=sent.start_char,
+        sentence=sentence,
+        sentence_start=sentence_start,
         gov_start=gov.idx,
         gov_end=gov.idx + len(gov.text),
         prep_start=first.idx,
