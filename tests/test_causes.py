@@ -112,7 +112,7 @@ def test_causes_suggestion_fits_a_city_object(ocat):
 def test_causes_suggestion_names_both_when_both_apply(ocat):
     advice = ocat.advise("arrive", "VERB", "to", (), {"place": 4, "building": 2, "name": 1})
     assert advice.by_object == (("place", "in"), ("building", "at"), ("name", "in"))
-    assert advice.native_pattern == "arrive in a place (a city, a country), at a building or object"
+    assert advice.native_pattern == "arrive in a place (a city, a country), at a building"
     assert [advice.preposition_for(c) for c in ("place", "building", "name")] == ["in", "at", "in"]
 
 

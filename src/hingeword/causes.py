@@ -39,7 +39,7 @@ class used, the slot native writers use most with that governor *and that kind o
 object* is suggested when the reference has at least :data:`MIN_CLASS_COUNT` such
 uses ("arrive" + a place → *in*; + a building → *at*); otherwise the governor's most
 frequent slot overall. When the classes the class wrote call for different slots,
-the advice names both ("arrive in a place (a city, a country), at a building or object").
+the advice names both ("arrive in a place (a city, a country), at a building").
 """
 
 from __future__ import annotations
@@ -230,7 +230,7 @@ class Categoriser:
             other = top.evidence.split("'")[1]
             text += f" By analogy with '{other.split(' ')[0]}': we say '{_plain_use(other)}', but '{g}' is different."
         elif top is not None and top.code == "directional":
-            text += f" '{prep}' shows movement towards something; after '{g}' English does not use it."
+            text += f" The word '{prep}' shows movement towards something; after '{g}' English does not use it."
         return Advice(causes=causes, suggestion=suggestion, suggested_preposition=slot,
                       suggestion_share=round(share, 4), native_pattern=native, explanation=text,
                       by_object=tuple(by_object))
@@ -248,7 +248,7 @@ def _plain_use(phrase: str) -> str:
 
 
 def object_words(classes: Sequence[str]) -> str:
-    """Object classes in words: "a place (a city, a country) or a building or object"; "something"
+    """Object classes in words: "a place (a city, a country) or a building"; "something"
     when a class has no useful name (other objects, or more than two kinds). Names beside places
     are not named again (an unknown proper noun after a place preposition is mostly a town)."""
     kinds = list(dict.fromkeys(classes))
@@ -263,7 +263,7 @@ def object_words(classes: Sequence[str]) -> str:
 def native_words(g: str, pos: str, slot: str, by_object: Sequence[tuple[str, str]] = ()) -> str:
     """The native pattern in words: "depend on something", "be good at something", or, when the
     kind of object decides, each slot with its objects: "arrive in a place (a city, a country),
-    at a building or object"."""
+    at a building"."""
     be = "be " if pos == "ADJ" else ""
     if not by_object:
         return f"{be}{g} something" if slot == NO_PREP else f"{be}{g} {slot} something"

@@ -185,15 +185,16 @@ def _multiword_at(doc, i: int) -> tuple[str, ...] | None:
 
 
 #: Coarse classes of a preposition's object (or of a direct object), with how a learner
-#: reads them: "arrive *in* a place (a city, a country)", "arrive *at* a building".
+#: reads them: "arrive *in* a place (a city, a country)", "arrive *at* a building". Buildings stand for
+#: every man-made thing (WordNet's artifacts), events for acts, events and processes, institutions for groups.
 OBJECT_CLASSES = {
     "place": "a place (a city, a country)",
-    "building": "a building or object",
-    "event": "an event or activity",
+    "building": "a building",
+    "event": "an event",
     "time": "a time",
     "person": "a person",
-    "group": "a group or institution",
-    "idea": "an idea, subject or feeling",
+    "group": "an institution",
+    "idea": "an idea or subject",
     "nature": "a living thing or substance",
     "name": "a name (a town, a person)",
     "other": "something",
