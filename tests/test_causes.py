@@ -11,8 +11,8 @@ from collections import Counter
 import pytest
 
 from hingeword import reference as ref_mod
-from hingeword.causes import Categoriser, categorise
-from hingeword.record import PatternRecord, Status
+from hingeword.causes import Categoriser, categorise, reason_for_learners
+from hingeword.record import Cause, PatternRecord, Status
 from hingeword.reference import Reference
 from hingeword.rules import load_rules
 
@@ -48,7 +48,21 @@ def test_causes_suggestion_depend_of_is_on(cat):
 def test_causes_suggestion_discuss_is_direct_object(cat):
     advice = cat.advise("discuss", "VERB", "about", cat.categorise("discuss", "VERB", "about"))
     assert advice.suggestion == "discuss + direct object"
-    assert "no 'about'" in advice.explanation and "discussion about" in advice.explanation
+    assert advice.explanation == "We discuss something: no 'about'."
+    assert reason_for_learners("discuss", "about", advice.cause) == (
+        "Carried over from the noun 'discussion': we say 'a discussion about something'.")
+
+
+def test_causes_reason_names_the_related_word():
+    # a related word that takes a direct object: "by analogy with 'hear': we say 'hear something'"
+    cause = Cause("related-word", 0.4, "'hear + object' (synonym): 30 of 40 uses of 'hear' in the reference (75%)",
+                  "by analogy with a related word")
+    assert reason_for_learners("listen", "-", cause) == (
+        "By analogy with 'hear': we say 'hear something', but 'listen' is different.")
+    cause = Cause("directional", 0.3, "'to' marks movement; …", "a word for movement")
+    assert reason_for_learners("arrive", "to", cause) == (
+        "The word 'to' shows movement towards something; after 'arrive' English does not use it.")
+    assert reason_for_learners("x", "of", Cause("unclear", 0.0, "", "")) is None
 
 
 def test_causes_l1_transfer_when_first_language_known(cat):
@@ -111,9 +125,10 @@ def test_causes_suggestion_fits_a_city_object(ocat):
 
 def test_causes_suggestion_names_both_when_both_apply(ocat):
     advice = ocat.advise("arrive", "VERB", "to", (), {"place": 4, "building": 2, "name": 1})
-    assert advice.by_object == (("place", "in"), ("building", "at"), ("name", "in"))
-    assert advice.native_pattern == "arrive in a place (a city, a country), at a building"
-    assert [advice.preposition_for(c) for c in ("place", "building", "name")] == ["in", "at", "in"]
+    assert advice.by_object == (("place", "in"), ("building", "at"), ("any other", "at"))
+    assert advice.native_pattern == "arrive in a place (a city, a country), at a building or something else"
+    # a name (a person, a town, a language alike) is too mixed to advise on: the verb's usual slot
+    assert [advice.preposition_for(c) for c in ("place", "building", "name")] == ["in", "at", "at"]
 
 
 def test_causes_suggestion_without_enough_evidence_for_the_object_is_the_usual_slot(ocat):
@@ -150,3 +165,30 @@ def test_causes_record_round_trips_the_slots_by_object(ocat):
     row = out.to_row()
     assert row["suggestion_by_object"] == "place: in; building: at"
     assert PatternRecord.from_row(row).advice == out.advice
+
+
+@pytest.mark.slow
+def test_causes_suggestion_fits_real_parses_against_the_bundled_reference(cat):
+    """Real parses and the bundled reference: "arrive to Rome" gets "in", "arrive to the station" "at"."""
+    from hingeword.causes import object_tallies
+    from hingeword.extract import extract_doc
+    from hingeword.parse import load_model
+    from hingeword.report.context import native_of
+    from hingeword.report.text import answer_key, sentence_view
+
+    nlp, _ = load_model(None)
+    texts = ["When we arrived to Rome, it was raining.", "They arrived to Tokyo late at night.",
+             "I arrived to Madrid on a cold morning.", "We arrived to the station too early.",
+             "She arrived to the airport by taxi."]
+    atts = [a for t in texts for a in extract_doc(nlp(t), essay_id=t[:8], writer=t[:8])
+            if a.key == ("arrive", "VERB", "to")]
+    assert [a.object_class for a in atts] == ["place", "place", "place", "building", "building"]
+    rec = PatternRecord("arrive", "VERB", "to", flagged=True, status=Status.OVER_USED)
+    [out] = categorise([rec], cat.ref, cat.rules, {}, object_tallies(atts))
+    assert out.advice.suggested_preposition == "in"
+    assert out.advice.native_pattern == "arrive in a place (a city, a country), at a building"
+    answers = [answer_key(sentence_view(a), "to", out.advice.preposition_for(a.object_class))[0] for a in atts]
+    assert answers[0] == "When we arrived in Rome, it was raining."
+    assert answers[3] == "We arrived at the station too early."
+    # a student who wrote only about cities is told only about cities
+    assert native_of(out, ["place", "place"])[1] == "arrive in a place (a city, a country)"

@@ -323,7 +323,7 @@ def test_report_handout_context_top_patterns_examples_and_practice(data):
     assert ctx["more_count"] == 0
     first = ctx["patterns"][0]
     assert first["native_pattern"] == "discuss something"
-    assert first["reason"] == "Carried over from a noun."
+    assert first["reason"] == "Carried over from the noun 'discussion': we say 'a discussion about something'."
     assert first["writers"] == 5
     # three examples, shortest first, from different writers; the practice sentence is none of them
     shown = ["".join(t for t, _ in ex["segments"]) for ex in first["examples"]]

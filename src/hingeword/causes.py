@@ -37,9 +37,12 @@ its object (:func:`hingeword.extract.object_class`: a place, a building, an even
 and the reference counts the governor's slots per object class. For each class the
 class used, the slot native writers use most with that governor *and that kind of
 object* is suggested when the reference has at least :data:`MIN_CLASS_COUNT` such
-uses ("arrive" + a place → *in*; + a building → *at*); otherwise the governor's most
-frequent slot overall. When the classes the class wrote call for different slots,
-the advice names both ("arrive in a place (a city, a country), at a building").
+uses, one preposition takes at least :data:`MIN_CLASS_SHARE` of them, and the governor's
+usual slot is a preposition too ("arrive" + a place → *in*; + a building → *at*);
+otherwise the governor's most frequent slot overall. Names and unclassified objects
+(:data:`UNSPECIFIC_CLASSES`) always take the usual slot. When the classes the class wrote
+call for different slots, the advice names both ("arrive in a place (a city, a
+country), at a building").
 """
 
 from __future__ import annotations
@@ -63,6 +66,11 @@ MIN_LEXICAL_OE = 2.0
 MIN_DIRECTIONAL_SHARE = 0.20
 #: Native uses of a governor with one class of object before that class gets its own suggestion.
 MIN_CLASS_COUNT = 5
+#: Classes too mixed to advise on their own: names (persons, towns, languages, firms alike without an
+#: entity recogniser) and unclassified objects take the governor's usual slot.
+UNSPECIFIC_CLASSES = frozenset({"name", "other"})
+#: Share of those uses the class's slot needs: a clear preference, not a near tie.
+MIN_CLASS_SHARE = 0.4
 L1_WEIGHT = 0.9
 #: related-word relations, in the order they are tried
 _RELATIONS = ("synonym", "similar", "antonym", "also_see")
@@ -120,18 +128,21 @@ class Categoriser:
         :data:`MIN_CLASS_COUNT` such uses (or none of another slot than ``avoid``)."""
         slots = self.by_class.get((g, pos, cls))
         total = sum(slots.values()) if slots else 0
-        if not cls or total < MIN_CLASS_COUNT:
+        if not cls or cls in UNSPECIFIC_CLASSES or total < MIN_CLASS_COUNT:
             return None
         best = sorted(((n, s) for s, n in slots.items() if s != avoid), key=lambda t: (-t[0], t[1]))
-        if not best or best[0][0] < 2:
+        if not best or best[0][0] < 2 or best[0][1] == NO_PREP or best[0][0] / total < MIN_CLASS_SHARE:
             return None
         n, slot = best[0]
         return slot, n / total, n
 
     def slots_by_object(self, g: str, pos: str, avoid: str, classes: Mapping[str, int]) -> list[tuple[str, str]]:
         """(object class, native slot) for each class the learners used with this pattern whose slot the
-        reference knows, most used class first."""
+        reference knows, most used class first; none when the governor's usual slot is a direct object."""
         out = []
+        general = self.suggestion(g, pos, avoid)
+        if general is None or general[0] == NO_PREP:  # a verb that takes a direct object: one plain piece of advice
+            return []
         for cls, _k in sorted(classes.items(), key=lambda t: (-t[1], t[0])):
             sug = self.class_suggestion(g, pos, avoid, cls)
             if sug is not None:
@@ -215,7 +226,6 @@ class Categoriser:
         if pos == "ADJ":
             written = f"be {written}"
         suggestion = f"{g} + direct object" if slot == NO_PREP else f"{g} {slot}"
-        top = causes[0] if causes else None
         slots = {s for _, s in by_object} | {slot}
         if slots == {NO_PREP} and prep != NO_PREP:
             text = f"We {native}: no '{prep}'."
@@ -223,17 +233,32 @@ class Categoriser:
             text = f"We say '{native}': the '{slot}' is needed."
         else:
             text = f"We say '{native}', not '{written}'."
-        if top is not None and top.code == "noun-pattern" and prep != NO_PREP:
-            noun = top.evidence.split("'")[1].rsplit(" ", 1)[0]
-            text += f" But: a {noun} {prep} something."
-        elif top is not None and top.code == "related-word" and prep != NO_PREP:
-            other = top.evidence.split("'")[1]
-            text += f" By analogy with '{other.split(' ')[0]}': we say '{_plain_use(other)}', but '{g}' is different."
-        elif top is not None and top.code == "directional":
-            text += f" The word '{prep}' shows movement towards something; after '{g}' English does not use it."
         return Advice(causes=causes, suggestion=suggestion, suggested_preposition=slot,
                       suggestion_share=round(share, 4), native_pattern=native, explanation=text,
                       by_object=tuple(by_object))
+
+
+def reason_for_learners(g: str, prep: str, cause: Cause | None) -> str | None:
+    """The likely cause as a sentence a learner understands, naming the word it comes from:
+    "By analogy with 'hear': we say 'hear something', but 'listen' is different." ``None`` when unclear."""
+    if cause is None or cause.code == "unclear":
+        return None
+    quoted = cause.evidence.split("'")[1] if cause.evidence.count("'") >= 2 else ""
+    if cause.code == "noun-pattern" and quoted and prep != NO_PREP:
+        noun = quoted.rsplit(" ", 1)[0]
+        article = "an" if noun[:1] in "aeiou" else "a"
+        return f"Carried over from the noun '{noun}': we say '{article} {noun} {prep} something'."
+    if cause.code == "related-word" and quoted:
+        other = quoted.split(" ")[0]
+        return f"By analogy with '{other}': we say '{_plain_use(quoted)}', but '{g}' is different."
+    if cause.code == "directional" and prep != NO_PREP:
+        return f"The word '{prep}' shows movement towards something; after '{g}' English does not use it."
+    if cause.code == "l1-transfer":
+        lang = cause.evidence.split("first language is ", 1)[-1].split(" (", 1)[0] if "first language is " in \
+            cause.evidence else ""
+        return f"Carried over from the first language{f' ({lang})' if lang else ''}."
+    label = (cause.label or "").strip()
+    return (label[0].upper() + label[1:] + ("" if label[-1:] in ".!?" else ".")) if label else None
 
 
 #: The ``by_object`` entry for objects of classes without their own evidence.
@@ -272,7 +297,10 @@ def native_words(g: str, pos: str, slot: str, by_object: Sequence[tuple[str, str
         groups.setdefault(s, []).append(cls)
     parts = []
     for s, cls in groups.items():
-        words = "something else" if cls == [OTHER_OBJECTS] else object_words(cls)
+        named = [c for c in cls if c != OTHER_OBJECTS]
+        words = object_words(named) if named else "something else"
+        if named and OTHER_OBJECTS in cls and words != "something":
+            words += " or something else"
         parts.append(words if s == NO_PREP else f"{s} {words}")
     return f"{be}{g} " + ", ".join(parts)
 

@@ -8,7 +8,7 @@ plain dict out) so that tests can check what each template receives.
 from __future__ import annotations
 
 from .. import __version__
-from ..causes import native_words
+from ..causes import native_words, reason_for_learners
 from ..extract import Attachment
 from ..record import NO_PREP, PatternRecord, Since, key_label, plain_label
 from ..view import RunView
@@ -44,13 +44,9 @@ def native_of(r: PatternRecord, classes=None) -> tuple[str | None, str | None, s
 
 
 def learner_reason(r: PatternRecord) -> str | None:
-    """The likely cause as a sentence for learners ("Carried over from a noun."); none if unclear."""
-    top = r.advice.cause if r.advice else None
-    label = (top.label if top else "").strip()
-    if not label or top.code == "unclear":
-        return None
-    label = label[0].upper() + label[1:]
-    return label if label[-1] in ".!?" else label + "."
+    """The likely cause as a sentence for learners, naming the related word ("By analogy with
+    'hear': we say 'hear something', but 'listen' is different."); none if unclear."""
+    return reason_for_learners(r.governor, r.preposition, r.advice.cause if r.advice else None)
 
 
 def common_context(view: RunView, today: str, title: str) -> dict:
@@ -201,6 +197,7 @@ def build_students_context(view: RunView, *, names: str = "pseudonyms", today: s
             groups.append({"class_pattern": plain_label(r.governor, r.preposition), "no_preposition": key[2] == NO_PREP,
                            "native_pattern": native,
                            "suggestion": suggestion, "explanation": (r.advice.explanation if r.advice else "") or None,
+                           "reason": learner_reason(r),
                            "sentences": [{"segments": v.segments} for v in views[:SHEET_SENTENCES]],
                            "more": max(0, len(views) - SHEET_SENTENCES)})
         label = view.writer_label(writer, names)
