@@ -613,3 +613,31 @@ def test_report_write_trends_page_with_inline_charts(ws, tmp_path):
     assert re.search(r"1\. discuss about .* Trend: also flagged last term \(500\.0 → \d+\.\d per 10,000 words\)", overview)
     assert re.search(r"2\. depend of .* Trend: new this term\.", overview)
 
+
+
+def test_report_private_key_says_who_is_who_and_no_page_links_to_it(ws, tmp_path):
+    paths = write_reports(ws, CLASS, TERM, tmp_path / "out", today=TODAY)
+    key = soup_of(paths.key)
+    assert "Private: not for sharing" in key.get_text()
+    rows = [[c.get_text() for c in tr.find_all(["th", "td"])] for tr in key.tbody.find_all("tr")]
+    codes = dict(load_run_view(ws, CLASS, TERM).codes)
+    assert [r[:2] for r in rows] == sorted([[code, w] for w, code in codes.items()])  # names whole, never cut
+    for page in (paths.handout, paths.handout_teacher, paths.overview, paths.students):
+        soup = soup_of(page)
+        assert not [a for a in soup.find_all("a") if "key.html" in (a.get("href") or "")], page.name
+        if page != paths.overview:  # the overview names the file for the teacher; student pages never do
+            assert "key.html" not in page.read_text(encoding="utf-8")
+        assert not any(w in soup.get_text() for w in codes if len(w) > 3), page.name  # pseudonyms by default
+    # names on the sheets only when asked
+    named = write_reports(ws, CLASS, TERM, tmp_path / "named", today=TODAY, names_on_sheets=True)
+    lines = [p.get_text(" ", strip=True) for p in soup_of(named.students).find_all("p", class_="name-line")]
+    assert sorted(lines) == sorted(f"Name: {w}" for w in codes)
+    assert "Name:" in soup_of(paths.students).find("p", class_="name-line").get_text()
+    assert not soup_of(paths.students).find("p", class_="filled")
+
+
+def test_report_titles_never_wrap_at_a_hyphen_and_pages_say_made_on(written):
+    for page in (written.handout, written.overview, written.students, written.key):
+        soup = soup_of(page)
+        assert soup.h1.find("span", class_="nowrap") is not None or "-" not in soup.h1.get_text()
+        assert f"made on {TODAY}" in soup.get_text(" ").lower()

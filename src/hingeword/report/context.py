@@ -194,9 +194,14 @@ def build_students_context(view: RunView, *, names: str = "pseudonyms", today: s
             views = sorted((sentence_view(a) for a in mine[writer][key]),
                            key=lambda v: (v.essay_id, v.position, v.gov or (0, 0)))
             _, native, suggestion = native_of(r, [v.object_class for v in views[:SHEET_SENTENCES]])
+            explanation = (r.advice.explanation if r.advice else "") or None
+            if r.advice is not None and r.advice.by_object and native != r.advice.native_pattern:
+                # the class's explanation names slots this student's sentences do not need
+                written = plain_label(r.governor, r.preposition)
+                explanation = f"We say '{native}', not '{'be ' if r.governor_pos == 'ADJ' else ''}{written}'."
             groups.append({"class_pattern": plain_label(r.governor, r.preposition), "no_preposition": key[2] == NO_PREP,
                            "native_pattern": native,
-                           "suggestion": suggestion, "explanation": (r.advice.explanation if r.advice else "") or None,
+                           "suggestion": suggestion, "explanation": explanation,
                            "reason": learner_reason(r),
                            "sentences": [{"segments": v.segments} for v in views[:SHEET_SENTENCES]],
                            "more": max(0, len(views) - SHEET_SENTENCES)})
