@@ -319,3 +319,21 @@ def test_cli_export_concordance_and_decisions(hand_run, in_tmp):
     assert {line["writer"] for line in lines} <= {"S01", "S02", "S03"}  # pseudonymised by default
     # the essay is named without its file name: the writer's code and the essay's number
     assert all(re.fullmatch(r"S0[1-3]-e1", line["essay_id"]) for line in lines), [line["essay_id"] for line in lines]
+
+
+def test_cli_help_has_plain_words_and_every_option_explained():
+    import typer
+
+    root = typer.main.get_command(app)
+    commands = []
+    for name, cmd in root.commands.items():
+        subs = getattr(cmd, "commands", None)
+        commands += [((name, sub), c) for sub, c in subs.items()] if subs else [((name,), cmd)]
+    assert len(commands) > 10
+    for words, cmd in commands:
+        undocumented = [p.name for p in cmd.params if not (getattr(p, "help", None) or "").strip()]
+        assert not undocumented, (words, undocumented)
+        shown = _invoke(*words, "--help")
+        assert shown.exit_code == 0, shown.output
+        for artefact in ("<bool>", "<str>", "<path>", "<list", "<int", "<float", "{"):
+            assert artefact not in shown.output, (words, artefact)

@@ -27,6 +27,46 @@ from .files import clean_text
 from .record import parse_slot
 from .score import Thresholds
 
+def _classic_help() -> None:
+    """Help that reads as plain words: recent typer versions print an option's Python type
+    (``<bool>``, ``<str>``, ``<list[Path]>``) and wrap required arguments in braces
+    (``{essays}``). Flags get no type, values a short upper-case word (TEXT, PATH, N, or the
+    choices), arguments their name in capitals. Older typer versions lack these hooks and are
+    left as they are."""
+    core = getattr(typer, "core", None)
+    option, argument = getattr(core, "TyperOption", None), getattr(core, "TyperArgument", None)
+    if option is None or argument is None or not hasattr(option, "display_type_rich"):
+        return
+    words = {"str": "TEXT", "path": "PATH", "int": "N", "float": "NUMBER"}
+
+    def display(self, ctx):
+        if self.metavar is not None:
+            return self.metavar
+        if getattr(self, "is_flag", False) or getattr(self, "is_bool_flag", False):
+            return None
+        try:
+            label = self.display_type(ctx).strip("<>")
+        except Exception:  # noqa: BLE001 - help must never fail
+            return None
+        if label == "bool":
+            return None
+        if "|" in label and not label.startswith("list"):
+            return f"[{label}]"
+        base = label.removeprefix("list[").removesuffix("]").split(" ")[0].lower()
+        return words.get(base, base.upper())
+
+    option.display_type_rich = display
+    argument.display_type_rich = lambda self, ctx: None
+    if hasattr(argument, "_usage_display_name"):
+        def usage(self):
+            name = (self.metavar or self.name or "").upper()
+            return (name if self.required else f"[{name}]") + ("..." if self.nargs != 1 else "")
+
+        argument._usage_display_name = usage
+
+
+_classic_help()
+
 app = typer.Typer(
     help="Find the preposition patterns a class over-uses compared with native writing.",
     no_args_is_help=True,
@@ -64,7 +104,8 @@ ClassOpt = typer.Option(..., "--class", help="Class name, e.g. 'evening-b2'.")
 TermOpt = typer.Option(..., "--term", help="Term name, e.g. '2026-spring'.")
 NamesOpt = typer.Option(Names.pseudonyms, "--names", help="Writers as pseudonyms (S01, S02 …; the default) or real names.")
 QuietOpt = typer.Option(False, "--quiet", "-q", help="No progress bar.")
-GovernorArg = typer.Argument(..., help="Governor lemma, e.g. 'discuss'.")
+GovernorArg = typer.Argument(..., help="The word the preposition belongs to (verb, adjective or noun), e.g. 'discuss'.",
+                             metavar="WORD")
 SlotArg = typer.Argument(..., help="Preposition ('about', 'in front of'), or 'object' (also '+ object' or '-') "
                                    "for a direct object: the spelling the reports print is accepted.",
                          metavar="PREPOSITION")
@@ -149,7 +190,8 @@ def _main(
 @_command(app)
 @_with_threshold_options
 def scan(
-    essays: Path = typer.Argument(..., help="Folder of essays (.txt, .docx, .odt, or one .csv with writer,text)."),
+    essays: Path = typer.Argument(..., help="Folder of essays (.txt, .docx, .odt), or one .csv file with writer,text.",
+                                  metavar="ESSAYS"),
     class_name: str = ClassOpt,
     term: str = TermOpt,
     workspace: Path = WorkspaceOpt,
