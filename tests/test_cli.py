@@ -134,7 +134,8 @@ def test_cli_export_unknown_class(hand_run, in_tmp):
 
 def test_cli_export_missing_workspace(in_tmp):
     result = _invoke("export", "--class", "c", "--term", "t", "-w", "nows", "-o", "out.csv")
-    _assert_one_error_line(result, "no workspace at nows (run 'hingeword scan' first)")
+    _assert_one_error_line(result, f"no workspace at {Path('nows').absolute()} (run 'hingeword scan' first, or give "
+                                   "the workspace folder with --workspace)")
     assert not (in_tmp / "nows").exists()  # export never creates a workspace
 
 

@@ -41,6 +41,7 @@ def scan_summary(result, top: int) -> list[str]:
              f"{result.class_name} / {result.term}: {plural(len(ing.essays), 'essay')} read, {len(ing.skipped)} skipped, "
              f"{plural(ing.word_count, 'word')}; parsed {st.parsed}, from cache {st.from_cache}"]
     lines += [f"  skipped {s.source}: {s.reason}" for s in ing.skipped]
+    lines += [f"  manifest problem, {s.source}: {s.reason}" for s in getattr(ing, "manifest_problems", ())]
     lines += [f"  identical essays (kept): {', '.join(group)}" for group in ing.duplicates]
     lines += [f"  near-duplicates (kept): {nd.first} ~ {nd.second} ({nd.similarity:.0f}%)" for nd in ing.near_duplicates]
     for (lemma, pos), (known, known_pos) in sorted(result.typo_groups.items()):

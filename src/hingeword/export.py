@@ -336,6 +336,7 @@ def concordance_lines(workspace: str | Path, class_name: str, term: str, governo
     from .record import key_label
 
     with Workspace(workspace, read_only=True) as ws:
+        class_name = ws.canonical_class(class_name)
         run = ws.run(class_name, term)
         atts = ws.attachments(run.id, key=(governor.lower(), None, preposition.lower()))
         if not atts:

@@ -312,7 +312,8 @@ class Workspace:
         create = create and not read_only
         if not self.root.exists():
             if not create:
-                raise WorkspaceError(f"no workspace at {self.root} (run 'hingeword scan' first)")
+                raise WorkspaceError(f"no workspace at {Path(self.root).absolute()} (run 'hingeword scan' first, or "
+                                     "give the workspace folder with --workspace)")
             try:
                 self.root.mkdir(parents=True, exist_ok=True)  # another process may make it too
             except OSError as exc:
@@ -776,6 +777,17 @@ class Workspace:
         return group
 
     @_translated
+    def canonical_class(self, class_name: str) -> str:
+        """The class's name as stored: ``class_name`` itself when a run has it, else the one stored
+        name that differs only in case ("Evening-B2" → "evening-b2"), else ``class_name``."""
+        if class_name is None:
+            return class_name
+        names = {r[0] for r in self.conn.execute("SELECT DISTINCT class FROM runs")}
+        if class_name in names:
+            return class_name
+        same = [n for n in names if n.casefold() == class_name.casefold()]
+        return same[0] if len(same) == 1 else class_name
+
     def require_class(self, class_name: str) -> None:
         """Raise a clear error when no run of the class (or of a class linked to it) exists."""
         if not self.runs_in_order(class_name):

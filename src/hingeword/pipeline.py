@@ -50,8 +50,8 @@ class ScanResult:
 
 
 def ingest_notes(result: IngestResult) -> list[tuple[str, str]]:
-    """Duplicate and near-duplicate warnings as (kind, message) notes."""
-    notes = []
+    """Manifest problems, duplicate and near-duplicate warnings as (kind, message) notes."""
+    notes = [("manifest", f"{p.source}: {p.reason}") for p in result.manifest_problems]
     for group in result.duplicates:
         notes.append(("duplicate", f"identical essays (all kept): {', '.join(group)}"))
     for nd in result.near_duplicates:
@@ -147,6 +147,7 @@ def scan(
     _require_essays(ingest, folder, class_name, term)
     ws = Workspace(workspace)
     try:
+        class_name = ws.canonical_class(class_name)  # "Evening-B2" joins the stored "evening-b2"
         stats = ParseStats()
         texts = [e.text for e in ingest.essays]
         done = 0

@@ -72,6 +72,7 @@ def load_run_view(ws: Workspace, class_name: str, term: str, *, match: bool = Fa
         (:func:`hingeword.trends.writer_matches`) for the per-writer progress.
     :param progress: compute the per-writer progress (the student sheets need it).
     """
+    class_name = ws.canonical_class(class_name)  # class names match whatever their case
     run = ws.run(class_name, term)
     previous = ws.previous_run(class_name, term)
     stored = ws.records(run.id)

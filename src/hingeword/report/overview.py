@@ -243,7 +243,7 @@ def build_overview_context(view: RunView, *, names: str = "pseudonyms", today: s
         "unused_rows": [_row(r) for r in records if r.learner_count == 0],
         "flagged": flagged, "dismissed": dismissed,
         "skipped": [{"source": label(s.source), "reason": rename(s.reason)} for s in view.skipped],
-        "notes": [{"kind": n.kind, "message": rename(n.message)} for n in view.notes],
+        "notes": [{"kind": n.kind, "message": _note_text(n, rename)} for n in view.notes],
         "file_names_hidden": names != "real" and bool(view.skipped or view.notes),
         "spelling": spelling_groups(view),
         "kept_spellings": [str(k) for k in run.settings.get("keep_spelling") or ()],
@@ -303,6 +303,14 @@ def build_trends_context(tr, *, today: str, overview_chart: str = "", pattern_ch
         "matches": [{"term": t, "current": cur, "previous": prev, "score": f"{score:.0f}"}
                     for t, cur, prev, score in matches],
     }
+
+
+def _note_text(note, rename) -> str:
+    """A note in words without file names; a manifest problem keeps its row ("manifest.csv:line 3")."""
+    if note.kind == "manifest" and ":line " in note.message:
+        where, sep, rest = note.message.partition(": ")
+        return where + sep + rename(rest)
+    return rename(note.message)
 
 
 def _when(stamp) -> str:
