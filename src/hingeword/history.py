@@ -701,17 +701,27 @@ class Workspace:
         return [PatternRecord.from_row(json.loads(r[0])) for r in rows]
 
     @_translated
-    def writer_codes(self, class_name: str) -> dict[str, str]:
+    def writer_codes(self, class_name: str, same_as: dict[str, str] | None = None) -> dict[str, str]:
         """Stable pseudonyms for a class: "S01", "S02", … in order of first appearance.
 
         Runs are taken in term order, writers within a run alphabetically, so the
         codes of earlier terms never change when a later term is added.
+
+        :param same_as: writer id -> the id of the same student in an earlier term (links the
+            teacher confirmed, :mod:`hingeword.writer_links`): that writer keeps the earlier code.
         """
         codes: dict[str, str] = {}
+        same_as = same_as or {}
+        count = 0
         for run in self.runs_in_order(class_name):
             for writer in self.writers(run.id):
-                if writer not in codes:
-                    codes[writer] = f"S{len(codes) + 1:02d}"
+                if writer in codes:
+                    continue
+                if same_as.get(writer) in codes:
+                    codes[writer] = codes[same_as[writer]]
+                else:
+                    count += 1
+                    codes[writer] = f"S{count:02d}"
         return codes
 
     def forget(self, class_name: str, term: str | None = None) -> Forgotten:

@@ -164,8 +164,12 @@ def trends_page_context(ws: Workspace, class_name: str, *, today: str | None = N
     tr = compute_trends(ws, class_name)
     matches = []
     if match:
+        from ..writer_links import links_for
+
         for t in tr.terms:
-            matches += [(t["term"], cur, prev, score) for cur, prev, score in writer_matches(ws, t["class"], t["term"])]
+            rejected = links_for(ws.root, t["class"], t["term"])[1]
+            matches += [(t["term"], cur, prev, score) for cur, prev, score in writer_matches(ws, t["class"], t["term"])
+                        if (cur, prev) not in rejected]
     return build_trends_context(
         tr, today=today, overview_chart=chart_overview(tr, top=TREND_CHART_PATTERNS) if tr.patterns else "",
         pattern_charts={p.key: chart_pattern(tr, p) for p in tr.patterns}, matches=matches)
@@ -218,9 +222,25 @@ def make_trends(workspace: str | Path, class_name: str, *, out_dir: str | Path |
         tr = compute_trends(ws, class_name)
         lines = list(text_table(tr))
         if match:
+            from ..writer_links import links_for, propose
+
             lines.append(f"Proposed writer matches (name similarity ≥ {MATCH_THRESHOLD:.0f}; please check):")
-            found = [f"  {t['term']}: '{cur}' = '{prev}' ({score:.0f})"
-                     for t in tr.terms for cur, prev, score in writer_matches(ws, t["class"], t["term"])]
+            proposals, found = [], []
+            for t in tr.terms:
+                confirmed, rejected = links_for(workspace, t["class"], t["term"])
+                for cur, prev, score in writer_matches(ws, t["class"], t["term"]):
+                    if (cur, prev) in rejected:
+                        continue
+                    proposals.append((t["class"], t["term"], cur, prev, score))
+                    state = "confirmed" if confirmed.get(cur) == prev else "proposed"
+                    found.append(f"  {t['term']}: '{cur}' = '{prev}' ({score:.0f}, {state})")
             lines += found or ["  none"]
+            if proposals:
+                try:
+                    where = propose(workspace, proposals)
+                    lines.append(f"To confirm or reject a match, write yes or no in the 'decision' column of {where}; "
+                                 "a confirmed student keeps last term's code")
+                except HingewordError as exc:  # a read-only workspace: the proposals are still printed
+                    lines.append(f"(the proposals could not be saved for confirming: {exc})")
         path = write_trends(ws, class_name, Path(out_dir), match=match, today=today) if out_dir is not None else None
     return TrendsOutcome(tuple(lines), path)
