@@ -69,6 +69,14 @@ def scan_summary(result, top: int) -> list[str]:
             a = r.advice
             cause = a.cause.label if a and a.cause else ""
             lines.append(f"  {r.label}: {cause} → {a.suggestion if a else ''} — {a.explanation if a else ''}")
+    # a native form the class avoids where it over-uses another is the same finding: said with the flag
+    sides = {(r.governor, r.governor_pos, s) for r in flagged if r.advice
+             for s in {r.advice.suggested_preposition, *(x for _, x in r.advice.by_object)}}
+    folded = [r for r in under if r.key in sides]
+    under = [r for r in under if r.key not in sides]
+    if folded:
+        lines.append("  (the other side of these flags: " + "; ".join(
+            f"{r.label} {r.learner_count}× in the class, natives {100 * r.reference_share:.0f}%" for r in folded) + ")")
     if under:
         lines.append("Under-used (native patterns the class avoids):")
         lines += ["  " + line for line in pattern_lines(under[:top])]
