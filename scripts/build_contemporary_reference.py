@@ -136,13 +136,14 @@ def genre_words(docs: list[ns.Document], nlp) -> dict[str, Counter]:
 
 def _stamp(folder: Path, model_desc: dict) -> str:
     """What a part depends on: its input files, the model, and the counting code itself
-    (extract.py and reference.py, not only EXTRACTOR_VERSION, which a change may forget to bump)."""
+    (extract.py, reference.py and the noun classes, not only EXTRACTOR_VERSION, which a change may forget to bump)."""
     import hingeword.extract
 
     h = hashlib.sha256()
     h.update(json.dumps({"extractor": EXTRACTOR_VERSION, **model_desc}, sort_keys=True).encode())
     for module in (hingeword.extract, reference):
         h.update(_sha(Path(module.__file__).read_bytes()).encode())
+    h.update(_sha((REPO / "rules" / "wordnet" / "noun_classes.tsv").read_bytes()).encode())
     for p in sorted(folder.rglob("*.txt")):
         h.update(str(p.relative_to(folder)).encode() + b"\0" + _sha(p.read_bytes()).encode() + b"\n")
     return h.hexdigest()
@@ -227,10 +228,12 @@ def combine(parts: list[dict], cls: str, out: Path, build_date: str, name: str) 
     """Add the parts' counts into one reference and save it."""
     patterns: Counter = Counter()
     lemmas: Counter = Counter()
+    objects: Counter = Counter()
     for p in parts:
         ref = reference.load(p["path"])
         patterns.update(ref.patterns)
         lemmas.update(ref.lemmas)
+        objects.update(ref.objects)
     models = {p["model"] for p in parts}
     if len(models) != 1:
         raise RuntimeError(f"the parts were parsed by different models: {sorted(models)}; rebuild them")
@@ -254,7 +257,7 @@ def combine(parts: list[dict], cls: str, out: Path, build_date: str, name: str) 
         "parts": entries,
     }
     json.dumps(manifest)  # must serialise
-    return reference.save(reference.Reference(manifest=manifest, patterns=patterns, lemmas=lemmas), out)
+    return reference.save(reference.Reference(manifest=manifest, patterns=patterns, lemmas=lemmas, objects=objects), out)
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -57,6 +57,16 @@ WORDS_HEADER = ("word",)
 INDEX_FILES = ("noun", "verb", "adj", "adv")
 RELATED_HEADER = ("word", "pos", "related", "relation")
 RELATIONS = ("synonym", "similar", "antonym", "also_see")
+NOUN_CLASSES_HEADER = ("noun", "class")
+#: WordNet's lexicographer files of nouns by number (lexnames(5) of the WordNet 3 documentation;
+#: the npm package leaves the lexnames file out). ``noun.Tops`` is written ``tops``.
+NOUN_LEXFILES = {
+    3: "tops", 4: "act", 5: "animal", 6: "artifact", 7: "attribute", 8: "body", 9: "cognition",
+    10: "communication", 11: "event", 12: "feeling", 13: "food", 14: "group", 15: "location", 16: "motive",
+    17: "object", 18: "person", 19: "phenomenon", 20: "plant", 21: "possession", 22: "process", 23: "quantity",
+    24: "relation", 25: "shape", 26: "state", 27: "substance", 28: "time",
+}
+_NOUN_LEMMA = re.compile(r"^[a-z]+(?:['.-][a-z]+)*(?: [a-z]+(?:['.-][a-z]+)*){0,2}$")
 
 
 @dataclass(frozen=True)
@@ -274,6 +284,32 @@ def read_words(dict_dir: Path) -> list[tuple[str]]:
     return [(w,) for w in sorted(words)]
 
 
+def noun_classes(dict_dir: Path) -> list[tuple[str, str]]:
+    """(noun, lexicographer class of its first sense) for every noun of index.noun of up to three
+    words ("rome" -> location, "station" -> artifact, "new york" -> location): WordNet lists a
+    lemma's senses most frequent first, so the first sense is the likeliest reading.
+    """
+    lexfile: dict[int, int] = {}
+    for line in (dict_dir / "data.noun").read_text(encoding="utf-8", errors="replace").splitlines():
+        if line.strip() and not line.startswith(" "):
+            offset, lex_filenum = line.split(" ", 2)[:2]
+            lexfile[int(offset)] = int(lex_filenum)
+    rows = []
+    for line in (dict_dir / "index.noun").read_text(encoding="utf-8", errors="replace").splitlines():
+        if not line.strip() or line.startswith(" "):
+            continue
+        fields = line.split()
+        lemma = fields[0].lower().replace("_", " ")
+        if not _NOUN_LEMMA.match(lemma):
+            continue
+        p_cnt = int(fields[3])
+        first = int(fields[4 + p_cnt + 2])
+        name = NOUN_LEXFILES.get(lexfile.get(first, -1))
+        if name:
+            rows.append((lemma, name))
+    return sorted(set(rows))
+
+
 def read_database(dict_dir: Path) -> tuple[dict, dict, dict]:
     """Read data.{noun,verb,adj,adv}, index.{verb,adj} and index.sense from ``dict_dir``."""
 
@@ -319,7 +355,7 @@ def fetch_package(spec: str, workdir: Path) -> Path:
 
 PROVENANCE = """# Provenance of the WordNet-derived tables
 
-`derived_nouns.tsv`, `related_words.tsv` and `words.tsv` are derived data: they were computed
+`derived_nouns.tsv`, `related_words.tsv`, `words.tsv` and `noun_classes.tsv` are derived data: they were computed
 from the WordNet database by `scripts/build_wordnet_rules.py`, not written by hand.
 Do not edit them; add rows of your own in a separate rules folder instead
 (see `rules/README.md`).
@@ -347,10 +383,15 @@ Do not edit them; add rows of your own in a separate rules folder instead
   - `also_see`: the also-see pointer `^`.
 - `words.tsv` (word): every single-word lemma of index.noun, index.verb,
   index.adj and index.adv; typo grouping never treats these as misspellings.
+- `noun_classes.tsv` (noun, class): every noun of index.noun of up to three words
+  with the lexicographer file of its first (most frequent) sense, `location`,
+  `artifact`, `person`, `event` … (lexnames(5)); extraction gives each attachment
+  the class of its object from it (not a rules table: teachers' folders do not overlay it).
 
 Rows: derived_nouns.tsv {derived_rows} rows ({derived_bytes} bytes);
 related_words.tsv {related_rows} rows ({related_bytes} bytes);
-words.tsv {words_rows} rows ({words_bytes} bytes).
+words.tsv {words_rows} rows ({words_bytes} bytes);
+noun_classes.tsv {classes_rows} rows ({classes_bytes} bytes).
 """
 
 
@@ -380,6 +421,7 @@ def main(argv: list[str] | None = None) -> int:
         d_rows, d_bytes = write_tsv(args.out / "derived_nouns.tsv", DERIVED_HEADER, derived, note)
         r_rows, r_bytes = write_tsv(args.out / "related_words.tsv", RELATED_HEADER, related, note)
         w_rows, w_bytes = write_tsv(args.out / "words.tsv", WORDS_HEADER, read_words(dict_dir), note)
+        c_rows, c_bytes = write_tsv(args.out / "noun_classes.tsv", NOUN_CLASSES_HEADER, noun_classes(dict_dir), note)
         licence = (
             "The WordNet licence as it stands at the head of each WordNet 3.1 data file\n"
             "(data.noun lines 1-29, line numbers removed), the files these tables derive from:\n\n"
@@ -402,7 +444,7 @@ def main(argv: list[str] | None = None) -> int:
             PROVENANCE.format(
                 source=source, package_note=package_note, date=args.date, command=command, limit=args.limit,
                 derived_rows=d_rows, derived_bytes=d_bytes, related_rows=r_rows, related_bytes=r_bytes,
-                words_rows=w_rows, words_bytes=w_bytes,
+                words_rows=w_rows, words_bytes=w_bytes, classes_rows=c_rows, classes_bytes=c_bytes,
             ),
             encoding="utf-8",
             newline="\n",
@@ -410,6 +452,7 @@ def main(argv: list[str] | None = None) -> int:
     print(f"derived_nouns.tsv: {d_rows} rows, {d_bytes} bytes", file=sys.stderr)
     print(f"related_words.tsv: {r_rows} rows, {r_bytes} bytes", file=sys.stderr)
     print(f"words.tsv: {w_rows} rows, {w_bytes} bytes", file=sys.stderr)
+    print(f"noun_classes.tsv: {c_rows} rows, {c_bytes} bytes", file=sys.stderr)
     return 0
 
 

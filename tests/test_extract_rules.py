@@ -212,3 +212,78 @@ def test_extract_filter_adverbial_objects_are_not_direct_objects(word, pos, lemm
     doc = make(("I", "PRP", "PRON", "nsubj", 1, "I"), ("waited", "VBD", "VERB", "ROOT", 1, "wait"),
                ("the", "DT", "DET", "det", 3, "the"), (word, "NN", pos, "dobj", 1, lemma))
     assert keys(doc) == ([("wait", "VERB", "-")] if counted else [])
+
+
+# --- the class of the object -------------------------------------------------
+
+
+def _arrive(prep: str, *obj: tuple[str, str, str, str]) -> Doc:
+    """ "We arrived PREP OBJ ." with the object's words as (word, tag, POS, lemma), head last."""
+    rows = [("We", "PRP", "PRON", "nsubj", 1, "we"), ("arrived", "VBD", "VERB", "ROOT", 1, "arrive"),
+            (prep, "IN", "ADP", "prep", 1, prep)]
+    head = 3 + len(obj) - 1
+    for i, (word, tag, pos, lemma) in enumerate(obj):
+        dep = "pobj" if 3 + i == head else ("compound" if pos == "PROPN" else "det")
+        rows.append((word, tag, pos, dep, head if 3 + i != head else 2, lemma))
+    rows.append((".", ".", "PUNCT", "punct", 1, "."))
+    return make(*rows)
+
+
+@pytest.mark.parametrize("obj,cls", [
+    ((("Rome", "NNP", "PROPN", "Rome"),), "place"),  # WordNet's first sense of "Rome": a location
+    ((("New", "NNP", "PROPN", "New"), ("York", "NNP", "PROPN", "York")), "place"),  # with its compound
+    ((("Marta", "NNP", "PROPN", "Marta"),), "name"),  # unknown proper noun: no entity recogniser
+    ((("John", "NNP", "PROPN", "John"),), "name"),  # WordNet's common "john" is not a place
+    ((("the", "DT", "DET", "the"), ("station", "NN", "NOUN", "station")), "building"),
+    ((("the", "DT", "DET", "the"), ("concert", "NN", "NOUN", "concert")), "idea"),  # a performance: communication
+    ((("the", "DT", "DET", "the"), ("accident", "NN", "NOUN", "accident")), "event"),
+    ((("my", "PRP$", "PRON", "my"), ("friends", "NNS", "NOUN", "friend")), "person"),  # lemma looked up
+    ((("them", "PRP", "PRON", "they"),), "person"),
+    ((("it", "PRP", "PRON", "it"),), "other"),
+    ((("the", "DT", "DET", "the"), ("glorpfest", "NN", "NOUN", "glorpfest")), "other"),  # not in WordNet
+])
+def test_extract_object_class_of_the_prepositions_object(obj, cls):
+    [a] = extract_doc(_arrive("at", *obj))
+    assert a.key == ("arrive", "VERB", "at") and a.object_class == cls
+
+
+def test_extract_object_class_of_a_gerund_and_of_a_direct_object():
+    # "She is good at swimming ."
+    doc = make(("She", "PRP", "PRON", "nsubj", 1, "she"), ("is", "VBZ", "AUX", "ROOT", 1, "be"),
+               ("good", "JJ", "ADJ", "acomp", 1, "good"), ("at", "IN", "ADP", "prep", 2, "at"),
+               ("swimming", "VBG", "VERB", "pcomp", 3, "swim"), (".", ".", "PUNCT", "punct", 1, "."))
+    [a] = extract_doc(doc)
+    assert a.key == ("good", "ADJ", "at") and a.object_class == "event"
+    # "I visited the museum ." -> the direct object's class
+    doc = make(("I", "PRP", "PRON", "nsubj", 1, "I"), ("visited", "VBD", "VERB", "ROOT", 1, "visit"),
+               ("the", "DT", "DET", "det", 3, "the"), ("museum", "NN", "NOUN", "dobj", 1, "museum"),
+               (".", ".", "PUNCT", "punct", 1, "."))
+    [a] = extract_doc(doc)
+    assert a.key == ("visit", "VERB", "-") and a.object_class == "building"
+    # a stranded preposition has no object: "other"
+    doc = make(("the", "DT", "DET", "det", 1, "the"), ("city", "NN", "NOUN", "ROOT", 1, "city"),
+               ("we", "PRP", "PRON", "nsubj", 3, "we"), ("arrived", "VBD", "VERB", "relcl", 1, "arrive"),
+               ("in", "IN", "ADP", "prep", 3, "in"))
+    [a] = extract_doc(doc)
+    assert a.key == ("arrive", "VERB", "in") and a.object_class == "other"
+
+
+# --- sentence text: titles and paragraphs the parser glued on are left out ----------------------
+
+
+@pytest.mark.parametrize("text,pattern,expected", [
+    ("My first journey\nWhen we arrived to Rome, it was raining.", "arrived to",
+     "When we arrived to Rome, it was raining."),  # a title glued to the first sentence
+    ("A Journey I Remember\n\nLast year we arrived to Porto.", "arrived to", "Last year we arrived to Porto."),
+    ("We were tired of\nthe long winter.", "tired of", "We were tired of\nthe long winter."),  # a wrapped line
+    ("I went there in\nAugust because we were tired of it.", "tired of",
+     "I went there in\nAugust because we were tired of it."),  # a short wrapped line ending in a function word
+])
+def test_extract_sentence_leaves_out_a_glued_title(text, pattern, expected):
+    from types import SimpleNamespace
+
+    from hingeword.extract import sentence_span
+
+    lo = text.index(pattern)
+    sentence, start = sentence_span(SimpleNamespace(text=text, start_char=100), 100 + lo, 100 + lo + len(pattern))
+    assert sentence == expected and start == 100 + text.index(expected)

@@ -53,7 +53,7 @@ def test_report_hostile_text_is_escaped_on_every_page(tmp_path):
         result = runner.invoke(app, ["trends", "--class", class_name, "-w", str(tmp_path / "ws"), "--out", str(out)])
         assert result.exit_code == 0, result.output
         pages = sorted(out.rglob("*.html"))
-        assert len(pages) == 5
+        assert len(pages) == 6  # handout, teacher copy, overview, sheets, the private key, trends
         for page in pages:
             soup = BeautifulSoup(page.read_text(encoding="utf-8"), "html.parser")
             assert not soup.find_all("script") and not soup.find_all("img"), page.name

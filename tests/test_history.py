@@ -63,7 +63,7 @@ def test_history_newer_schema_is_refused(tmp_path):
 
 
 def test_history_missing_workspace_without_create(tmp_path):
-    with pytest.raises(WorkspaceError, match=r"^no workspace at .*nowhere \(run 'hingeword scan' first\)$"):
+    with pytest.raises(WorkspaceError, match=r"^no workspace at /.*nowhere \(run 'hingeword scan' first, or give the workspace folder with --workspace\)$"):
         Workspace(tmp_path / "nowhere", create=False)
     (tmp_path / "empty").mkdir()
     with pytest.raises(WorkspaceError, match=r"^no hingeword database in .*empty"):

@@ -346,7 +346,8 @@ def test_ingest_manifest_bad_rows_are_skipped_not_fatal(tmp_path):
 
     result = read_essays(essays, manifest=manifest)
 
-    assert result.skipped == [
+    assert result.skipped == []  # problems of the manifest, not skipped essays
+    assert result.manifest_problems == [
         Skipped("manifest.csv:line 3", "manifest row points outside the essay folder: ../secret.txt"),
         Skipped("manifest.csv:line 4", "manifest row names a file that does not exist: missing.txt"),
         Skipped("manifest.csv:line 5", "manifest row repeats a.txt, already listed on line 2"),
@@ -576,3 +577,25 @@ def test_ingest_forced_encoding_that_does_not_fit_is_skipped(tmp_path):
 def test_ingest_unknown_encoding_is_a_clear_error(tmp_path):
     with pytest.raises(IngestError, match="unknown encoding 'klingon-8'"):
         read_essays(tmp_path, encoding="klingon-8")
+
+
+def test_ingest_manifest_names_case_twins_and_first_languages_that_are_not_codes(tmp_path):
+    essays = tmp_path / "essays"
+    _write(essays / "Lucia_R.txt", "We arrived to Rome at night.")
+    _write(essays / "ben.txt", "We arrived to Tokyo at night.")
+    manifest = _write(tmp_path / "manifest.csv", "file,writer,l1\nlucia_r.txt,Lucía Romero,es\nben.txt,Ben,Spanish\n")
+    result = read_essays(essays, manifest=manifest)
+    assert result.skipped == []
+    assert [(p.source, p.reason) for p in result.manifest_problems] == [
+        ("manifest.csv:line 2", "manifest row names a file that does not exist: lucia_r.txt (the folder has "
+                                "'Lucia_R.txt', which differs only in case: write the name exactly)"),
+        ("manifest.csv:line 3", "first language 'Spanish' of ben.txt is not an ISO 639-1 code such as 'es' or "
+                                "'pt-br': the essay is read, but no first-language note applies to it"),
+    ]
+    assert sorted(e.essay_id for e in result.essays) == ["Lucia_R.txt", "ben.txt"]  # both read all the same
+
+
+def test_ingest_one_csv_file_of_essays_is_accepted(tmp_path):
+    table = _write(tmp_path / "class.csv", 'writer,text\nAna,"We discussed about the plan."\nBen,"They discussed about money."\n')
+    result = read_essays(table)
+    assert [e.writer for e in result.essays] == ["Ana", "Ben"] and result.skipped == []

@@ -138,7 +138,7 @@ def test_migrations_upgrade_from_v1_keeps_every_row(tmp_path, caplog):
     assert {t: after[t] for t in ("class_links", "decisions", "decision_log")} == {
         "class_links": 0, "decisions": 0, "decision_log": 0}
     assert [r.getMessage() for r in caplog.records if "applied migration" in r.getMessage()] == [
-        "applied migration 0002_terms_links_decisions"]
+        "applied migration 0002_terms_links_decisions", "applied migration 0003_object_class"]
     assert any("backup written" in r.getMessage() for r in caplog.records)
 
 
@@ -218,18 +218,18 @@ def test_migrations_open_without_create_needs_an_existing_database(tmp_path):
 def test_migrations_failed_migration_rolls_back_all_steps(tmp_path, monkeypatch):
     root = make_v1(tmp_path / "ws")
     before = raw_counts(root / DB_NAME)
-    broken = MIGRATIONS + [("0003_broken", "CREATE TABLE extra (x TEXT); INSERT INTO no_such_table VALUES (1)")]
+    broken = MIGRATIONS + [("0099_broken", "CREATE TABLE extra (x TEXT); INSERT INTO no_such_table VALUES (1)")]
     monkeypatch.setattr(history, "MIGRATIONS", broken)
     with pytest.raises(sqlite3.OperationalError, match="no_such_table"):
         Workspace(root)
     gc.collect()  # the refused Workspace's connection
     monkeypatch.undo()
-    # neither 0002 nor 0003 was kept: still a version-1 database with its rows
+    # none of 0002, 0003 and the broken one was kept: still a version-1 database with its rows
     assert raw_version(root / DB_NAME) == 1
     assert raw_counts(root / DB_NAME) == before
     assert "term_start" not in columns(root / DB_NAME, "runs")
     with Workspace(root) as ws:  # and the real upgrade still works afterwards
-        assert ws.version() == 2 and db_integrity(ws.root) == "ok"
+        assert ws.version() == len(MIGRATIONS) and db_integrity(ws.root) == "ok"
 
 
 # ------------------------------------------------------------ newer schemas

@@ -247,10 +247,12 @@ def test_export_xlsx_and_json_read_back(hand_run, tmp_path):
     assert tuple(xlsx.columns[: len(CONTRACT)]) == CONTRACT
     assert sorted(xlsx.flagged.astype(str).str.lower()) == ["false", "true"]
 
-    records = json.loads(write_table(df, tmp_path / "p.json").read_text(encoding="utf-8"))
+    doc = json.loads(write_table(df, tmp_path / "p.json").read_text(encoding="utf-8"))
+    assert list(doc) == ["run", "columns", "rows"]  # the run record first, the rows under "rows"
+    records = doc["rows"]
     assert len(records) == len(df) == 2
     assert tuple(records[0])[: len(CONTRACT)] == CONTRACT
-    assert sorted(r["flagged"] for r in records) == ["false", "true"]
+    assert sorted(r["flagged"] for r in records) == [False, True]  # JSON booleans: true / false
     assert [r["learner_count"] for r in records] == list(df.learner_count)
 
 

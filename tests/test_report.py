@@ -323,7 +323,7 @@ def test_report_handout_context_top_patterns_examples_and_practice(data):
     assert ctx["more_count"] == 0
     first = ctx["patterns"][0]
     assert first["native_pattern"] == "discuss something"
-    assert first["reason"] == "Carried over from a noun."
+    assert first["reason"] == "Carried over from the noun 'discussion': we say 'a discussion about something'."
     assert first["writers"] == 5
     # three examples, shortest first, from different writers; the practice sentence is none of them
     shown = ["".join(t for t, _ in ex["segments"]) for ex in first["examples"]]
@@ -359,13 +359,15 @@ def test_report_overview_context_rows_flagged_first_with_figures(data):
     ctx = build_overview_context(data, today=TODAY)
     pats = [r["pattern"] for r in ctx["rows"]]
     assert pats[:5] == ["discuss about", "depend of", "listen + object", "emphasize on", "enter into"]
-    assert pats[5:] == ["discuss + object", "interested in"]  # then by status order: under-used, as native
+    assert pats[5:] == ["interested in"]  # then by status order (as native); unused native forms apart:
+    assert [r["pattern"] for r in ctx["unused_rows"]] == ["discuss + object"]
+    assert ctx["summary"]["patterns"] == 6 and ctx["summary"]["not_used"] == 1
     row = ctx["rows"][0]
     assert (row["learner_count"], row["reference_governor_count"], row["collocation_ratio"], row["log_likelihood"],
             row["log_ratio"], row["learner_share"], row["reference_share"]) == (
         "5", "320", "324", "48.9", "+8.64", "100%", "0.3%")
     assert ctx["rows"][4]["status"] == "over-used (dismissed)"
-    assert ctx["rows"][5]["log_ratio"] == "−6.00"
+    assert ctx["unused_rows"][0]["log_ratio"] == "−6.00"
     assert [f["pattern"] for f in ctx["flagged"]] == ["discuss about", "depend of", "listen + object", "emphasize on"]
     dep = ctx["flagged"][1]
     assert [c["label"] for c in dep["causes"]] == ["by analogy with a related word", "from the first language"]
@@ -480,11 +482,16 @@ def test_report_overview_headings_tables_and_caution(written):
     h2 = [h.get_text() for h in soup.find_all("h2")]
     assert h2 == ["Read this first", "At a glance", "Flagged patterns", "All patterns", "Dismissed patterns",
                   "Spelling groups", "Essays skipped", "Notes from the scan", "How this was measured"]
-    assert "Flags are candidates for your judgement, not verdicts." in soup.find("aside", class_="caution").get_text()
+    caution = soup.find("aside", class_="caution").get_text()
+    assert "Flags are candidates for your judgement, not verdicts." in caution
+    # how to dismiss, with the pattern spelt as the page spells it, and that the handouts need a rebuild
+    assert "hingeword dismiss discuss about --class 'Evening B2'" in caution
+    assert "change only when you build the reports again" in caution
+    assert "hingeword report --class 'Evening B2' --term '2026 Spring'" in caution
     table = soup.find("table", class_="figures")
     assert [th.get_text() for th in table.thead.find_all("th")] == [
-        "Pattern", "Word class", "In class", "Writers", "Governor in class", "Class share", "In reference",
-        "Governor in reference", "Reference share", "Collocation ratio", "G²", "Log Ratio", "Status"]
+        "Pattern", "Word class", "In class", "Writers", "All uses of the word (class)", "Class share", "In reference",
+        "All uses of the word (reference)", "Reference share", "Collocation ratio", "G²", "Log Ratio", "Status"]
     assert [th.get_text() for th in table.tbody.find_all("th", scope="row")][:2] == ["discuss about", "depend of"]
     assert table.find_parent("div", class_="table-wrap")["tabindex"] == "0"
     text = text_of(written.overview)
@@ -606,3 +613,31 @@ def test_report_write_trends_page_with_inline_charts(ws, tmp_path):
     assert re.search(r"1\. discuss about .* Trend: also flagged last term \(500\.0 → \d+\.\d per 10,000 words\)", overview)
     assert re.search(r"2\. depend of .* Trend: new this term\.", overview)
 
+
+
+def test_report_private_key_says_who_is_who_and_no_page_links_to_it(ws, tmp_path):
+    paths = write_reports(ws, CLASS, TERM, tmp_path / "out", today=TODAY)
+    key = soup_of(paths.key)
+    assert "Private: not for sharing" in key.get_text()
+    rows = [[c.get_text() for c in tr.find_all(["th", "td"])] for tr in key.tbody.find_all("tr")]
+    codes = dict(load_run_view(ws, CLASS, TERM).codes)
+    assert [r[:2] for r in rows] == sorted([[code, w] for w, code in codes.items()])  # names whole, never cut
+    for page in (paths.handout, paths.handout_teacher, paths.overview, paths.students):
+        soup = soup_of(page)
+        assert not [a for a in soup.find_all("a") if "key.html" in (a.get("href") or "")], page.name
+        if page != paths.overview:  # the overview names the file for the teacher; student pages never do
+            assert "key.html" not in page.read_text(encoding="utf-8")
+        assert not any(w in soup.get_text() for w in codes if len(w) > 3), page.name  # pseudonyms by default
+    # names on the sheets only when asked
+    named = write_reports(ws, CLASS, TERM, tmp_path / "named", today=TODAY, names_on_sheets=True)
+    lines = [p.get_text(" ", strip=True) for p in soup_of(named.students).find_all("p", class_="name-line")]
+    assert sorted(lines) == sorted(f"Name: {w}" for w in codes)
+    assert "Name:" in soup_of(paths.students).find("p", class_="name-line").get_text()
+    assert not soup_of(paths.students).find("p", class_="filled")
+
+
+def test_report_titles_never_wrap_at_a_hyphen_and_pages_say_made_on(written):
+    for page in (written.handout, written.overview, written.students, written.key):
+        soup = soup_of(page)
+        assert soup.h1.find("span", class_="nowrap") is not None or "-" not in soup.h1.get_text()
+        assert f"made on {TODAY}" in soup.get_text(" ").lower()

@@ -154,3 +154,30 @@ def test_report_browser_overview_prints_and_screenshots(reports, tmp_path):
         chromium(tmp_path, reports.overview, f"--screenshot={shot}", f"--window-size={w},{h}")
         assert shot.stat().st_size > 5000
         assert png_size(shot) == (w, h)
+
+
+def word_heights(pdf: Path) -> list[tuple[float, str]]:
+    """(height in points, word) of every word of a PDF, from pdftotext's bounding boxes."""
+    out = subprocess.run(["pdftotext", "-bbox", str(pdf), "-"], check=True, capture_output=True, text=True).stdout
+    return [(float(m.group(2)) - float(m.group(1)), m.group(3)) for m in
+            re.finditer(r'<word xMin="[\d.]+" yMin="([\d.]+)" xMax="[\d.]+" yMax="([\d.]+)">([^<]*)</word>', out)]
+
+
+def test_report_browser_print_keeps_patterns_whole_gives_lines_and_nine_points(tmp_path):
+    long_run(tmp_path / "ws")
+    with Workspace(tmp_path / "ws") as ws:
+        paths = write_reports(ws, CLASS, TERM, tmp_path / "out", top=5, today=TODAY)
+    pdf = print_pdf(tmp_path, paths.handout)
+    pages = [pdf_text(pdf, i) for i in range(1, page_count(pdf) + 1)]
+    for n in range(1, 6):  # each pattern starts and ends on one page: heading, examples, practice, lines
+        [where] = [i for i, text in enumerate(pages) if re.search(rf"\b{n}\. “", text)]
+        page = pages[where]
+        tail = page[page.index(f"{n}. “"):]
+        assert "Your turn" in tail and "Write it here:" in tail, (n, page)
+    assert sum(p.count("Write it here:") for p in pages) == 5
+    assert f"Made on {TODAY}" in pages[0]
+    # nothing printed smaller than 9 pt: the overview's tables and concordance lines included
+    for page in (paths.overview, paths.handout, paths.students):
+        heights = word_heights(print_pdf(tmp_path, page))
+        small = [w for h, w in heights if h < 9.0 * 0.95]  # a word box is about the font size tall
+        assert heights and not small, (page.name, small[:10])

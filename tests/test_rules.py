@@ -230,6 +230,14 @@ FIXTURE = {
         "  2 Second line.\n"
         "00000100 09 n 01 debate 0 000 | invented gloss\n"
         "00000120 09 n 02 argument 0 arguing 0 000 | invented gloss\n"
+        "00000140 15 n 01 Rome 0 000 | invented gloss\n"
+        "00000160 18 n 01 Roman 0 000 | invented gloss\n"
+        "00000180 15 n 01 New_York 0 000 | invented gloss\n"
+    ),
+    "index.noun": (
+        "argument n 1 0 1 0 00000120  \n"
+        "new_york n 1 0 1 0 00000180  \n"
+        "rome n 2 0 2 0 00000140 00000160  \n"
     ),
     "data.verb": (
         "  1 Invented licence header of a test fixture.\n"
@@ -325,6 +333,12 @@ def test_rules_build_limit_keeps_most_tagged(build, fixture_dir):
     assert [r[2] for r in related if r[0] == "daring" and r[3] == "similar"] == ["bold"]
 
 
+def test_rules_build_noun_classes_take_the_first_sense(build, fixture_dir):
+    # "rome": first sense a location (lexicographer file 15), second a person; multiword kept with a space
+    assert build.noun_classes(fixture_dir) == [("argument", "cognition"), ("new york", "location"),
+                                               ("rome", "location")]
+
+
 def test_rules_build_main_is_reproducible_and_loadable(build, fixture_dir, tmp_path):
     outputs = []
     for name in ("out1", "out2"):
@@ -332,8 +346,8 @@ def test_rules_build_main_is_reproducible_and_loadable(build, fixture_dir, tmp_p
         assert build.main(["--wordnet-dir", str(fixture_dir), "--out", str(out), "--date", "2000-01-01"]) == 0
         outputs.append({p.name: p.read_bytes() for p in sorted(out.iterdir())})
     assert outputs[0] == outputs[1]
-    assert sorted(outputs[0]) == ["LICENSE-WordNet.txt", "PROVENANCE.md", "derived_nouns.tsv", "related_words.tsv",
-                                  "words.tsv"]
+    assert sorted(outputs[0]) == ["LICENSE-WordNet.txt", "PROVENANCE.md", "derived_nouns.tsv", "noun_classes.tsv",
+                                  "related_words.tsv", "words.tsv"]
     assert b"Invented licence header of a test fixture.  \nSecond line.\n" in outputs[0]["LICENSE-WordNet.txt"]
     assert b"2000-01-01" in outputs[0]["PROVENANCE.md"]
     rules = load_rules([tmp_path / "out1"])

@@ -516,7 +516,8 @@ def test_trends_cli_prints_table_with_statuses(ws_path):
 def test_trends_cli_match_writers(ws_path):
     r = cli("trends", "--class", CLASS, "-w", ws_path, "--match-writers")
     assert r.exit_code == 0, r.stderr
-    assert "  spring: 'Lucia Romero' = 'Lucía Romero' (100)" in r.stdout.splitlines()
+    assert "  spring: 'Lucia Romero' = 'Lucía Romero' (100, proposed)" in r.stdout.splitlines()
+    assert "writer-matches.csv" in r.stdout  # where the teacher confirms or rejects it
 
 
 def test_trends_cli_dismiss_then_restore(ws_path):

@@ -371,7 +371,10 @@ def test_web_scan_review_and_download(tmp_path, tiny_ref_path):
         assert any(row["governor"] == "discuss" and row["preposition"] == "about" and row["flagged"] == "true"
                    for row in rows)
         assert r.content[:2] != b"PK" and c.get(url + "/download?what=patterns&format=xlsx").content[:2] == b"PK"
-        assert isinstance(c.get(url + "/download?what=patterns&format=json").json(), list)
+        doc = c.get(url + "/download?what=patterns&format=json").json()  # the run record, the column meanings, the rows
+        assert list(doc) == ["run", "columns", "rows"] and doc["run"]["class"] == "evening-b1" and doc["rows"]
+        side = c.get(url + "/download?what=run").json()
+        assert side["run"]["term"] == "2026-spring" and "governor" in side["columns"]
         kwic = list(csv.DictReader(io.StringIO(c.get(url + "/download?what=concordance&format=csv").text)))
         assert kwic and {row["writer"] for row in kwic} <= {"S01", "S02", "S03", "S04"}
         real = c.get(url + "/download?what=concordance&format=csv&names=real").text

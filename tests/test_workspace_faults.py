@@ -189,7 +189,7 @@ def test_history_old_schema_on_a_read_only_workspace_is_a_clear_message(tmp_path
     finally:
         workspace.chmod(0o755)
     assert res["code"] == 1 and res["output"].count("\n") == 1, res["output"]
-    assert "was written by an older hingeword (schema 1, this one reads 2) and cannot be upgraded" in res["output"]
+    assert "was written by an older hingeword (schema 1, this one reads 3) and cannot be upgraded" in res["output"]
 
 
 def test_history_readers_never_write_to_the_database(hand_run, tmp_path, monkeypatch):

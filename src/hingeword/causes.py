@@ -31,6 +31,18 @@ related word takes *p* at least twice as often as words in general do), not a la
 share: "a discussion about" is only 2 of 67 uses of "discussion" in the Brown
 reference (which prefers "of"), yet 3.5 times the rate of "about" overall.
 Directional needs the static alternative in ≥ 20 % of the governor's uses.
+
+The suggestion fits the learners' own sentences: each attachment carries the class of
+its object (:func:`hingeword.extract.object_class`: a place, a building, an event …),
+and the reference counts the governor's slots per object class. For each class the
+class used, the slot native writers use most with that governor *and that kind of
+object* is suggested when the reference has at least :data:`MIN_CLASS_COUNT` such
+uses, one preposition takes at least :data:`MIN_CLASS_SHARE` of them, and the governor's
+usual slot is a preposition too ("arrive" + a place → *in*; + a building → *at*);
+otherwise the governor's most frequent slot overall. Names and unclassified objects
+(:data:`UNSPECIFIC_CLASSES`) always take the usual slot. When the classes the class wrote
+call for different slots, the advice names both ("arrive in a place (a city, a
+country), at a building").
 """
 
 from __future__ import annotations
@@ -38,19 +50,27 @@ from __future__ import annotations
 from collections import Counter, defaultdict
 from collections.abc import Iterable, Mapping, Sequence
 
+from .extract import OBJECT_CLASSES
 from .record import NO_PREP, Advice, Cause, PatternRecord, Status
 from .rules import Rules
 
 LABELS = {
     "noun-pattern": "carried over from a related noun",
     "related-word": "by analogy with a related word",
-    "directional": "a movement preposition where English uses a place word or none",
+    "directional": "a word for movement ('to', 'into') where English does not use one",
     "l1-transfer": "carried over from the first language",
     "unclear": "no clear reason in the reference or the rules",
 }
 MIN_LEXICAL_COUNT = 2
 MIN_LEXICAL_OE = 2.0
 MIN_DIRECTIONAL_SHARE = 0.20
+#: Native uses of a governor with one class of object before that class gets its own suggestion.
+MIN_CLASS_COUNT = 5
+#: Classes too mixed to advise on their own: names (persons, towns, languages, firms alike without an
+#: entity recogniser) and unclassified objects take the governor's usual slot.
+UNSPECIFIC_CLASSES = frozenset({"name", "other"})
+#: Share of those uses the class's slot needs: a clear preference, not a near tie.
+MIN_CLASS_SHARE = 0.4
 L1_WEIGHT = 0.9
 #: related-word relations, in the order they are tried
 _RELATIONS = ("synonym", "similar", "antonym", "also_see")
@@ -76,6 +96,9 @@ class Categoriser:
             self.slots[(g, pos)][prep] += n
         self.prep_totals = reference.preposition_totals()
         self.total = max(reference.total, 1)
+        self.by_class: dict[tuple[str, str, str], Counter] = defaultdict(Counter)
+        for (g, pos, prep, cls), n in getattr(reference, "objects", {}).items():
+            self.by_class[(g, pos, cls)][prep] += n
 
     # --------------------------------------------------------------- native use
     def share(self, g: str, pos: str, prep: str) -> tuple[int, int]:
@@ -98,6 +121,33 @@ class Categoriser:
             return None
         n, slot = best[0]
         return slot, n / total, n
+
+    def class_suggestion(self, g: str, pos: str, avoid: str, cls: str) -> tuple[str, float, int] | None:
+        """The slot native writers use most with ``g`` and an object of class ``cls`` (other than
+        ``avoid``): (slot, share, count), or ``None`` when the reference has fewer than
+        :data:`MIN_CLASS_COUNT` such uses (or none of another slot than ``avoid``)."""
+        slots = self.by_class.get((g, pos, cls))
+        total = sum(slots.values()) if slots else 0
+        if not cls or cls in UNSPECIFIC_CLASSES or total < MIN_CLASS_COUNT:
+            return None
+        best = sorted(((n, s) for s, n in slots.items() if s != avoid), key=lambda t: (-t[0], t[1]))
+        if not best or best[0][0] < 2 or best[0][1] == NO_PREP or best[0][0] / total < MIN_CLASS_SHARE:
+            return None
+        n, slot = best[0]
+        return slot, n / total, n
+
+    def slots_by_object(self, g: str, pos: str, avoid: str, classes: Mapping[str, int]) -> list[tuple[str, str]]:
+        """(object class, native slot) for each class the learners used with this pattern whose slot the
+        reference knows, most used class first; none when the governor's usual slot is a direct object."""
+        out = []
+        general = self.suggestion(g, pos, avoid)
+        if general is None or general[0] == NO_PREP:  # a verb that takes a direct object: one plain piece of advice
+            return []
+        for cls, _k in sorted(classes.items(), key=lambda t: (-t[1], t[0])):
+            sug = self.class_suggestion(g, pos, avoid, cls)
+            if sug is not None:
+                out.append((cls, sug[0]))
+        return out
 
     # ------------------------------------------------------------------ causes
     def _lexical(self, words: Sequence[tuple[str, str, str]], prep: str, code: str) -> list[Cause]:
@@ -145,35 +195,122 @@ class Categoriser:
                                 "with evidence in the reference", LABELS["unclear"])]
 
     # -------------------------------------------------------------- plain words
-    def advise(self, g: str, pos: str, prep: str, causes: Sequence[Cause]) -> Advice:
-        """The suggestion and a short explanation a learner understands, with the ranked causes."""
+    def advise(self, g: str, pos: str, prep: str, causes: Sequence[Cause],
+               classes: Mapping[str, int] | None = None) -> Advice:
+        """The suggestion and a short explanation a learner understands, with the ranked causes.
+
+        :param classes: how often the class wrote the pattern with each class of object; the
+            suggestion then follows the natives' use with those objects (module docstring).
+        """
         causes = tuple(causes)
-        sug = self.suggestion(g, pos, prep)
-        if sug is None:
+        classes = dict(classes or {})
+        general = self.suggestion(g, pos, prep)
+        by_object = self.slots_by_object(g, pos, prep, classes)
+        if general is None and not by_object:
             return Advice(causes=causes, explanation="The reference has too few examples of this word to say more.")
-        slot, share, _ = sug
-        native = f"{g} something" if slot == NO_PREP else f"{g} {slot} something"
+        if by_object:  # the slot of the kind of object the class used most
+            slot = by_object[0][1]
+            c, n = self.share(g, pos, slot)
+            share = c / n if n else 0.0
+        else:
+            slot, share, _ = general
+        covered = {cls for cls, _ in by_object}
+        if general is not None and by_object and any(cls not in covered for cls in classes):
+            by_object.append((OTHER_OBJECTS, general[0]))  # the rest take the governor's usual slot
+        if by_object and all(s == (general[0] if general else None) for _, s in by_object):
+            by_object = []  # the kind of object changes nothing: plain advice
+            slot = general[0]
+            share = general[1]
+        native = native_words(g, pos, slot, by_object)
         written = f"{g} something" if prep == NO_PREP else f"{g} {prep} something"
         if pos == "ADJ":
-            native, written = f"be {native}", f"be {written}"
+            written = f"be {written}"
         suggestion = f"{g} + direct object" if slot == NO_PREP else f"{g} {slot}"
-        top = causes[0] if causes else None
-        if slot == NO_PREP and prep != NO_PREP:
+        slots = {s for _, s in by_object} | {slot}
+        if slots == {NO_PREP} and prep != NO_PREP:
             text = f"We {native}: no '{prep}'."
-        elif prep == NO_PREP:
+        elif prep == NO_PREP and len(slots) == 1:
             text = f"We say '{native}': the '{slot}' is needed."
         else:
             text = f"We say '{native}', not '{written}'."
-        if top is not None and top.code == "noun-pattern" and prep != NO_PREP:
-            noun = top.evidence.split("'")[1].rsplit(" ", 1)[0]
-            text += f" But: a {noun} {prep} something."
-        elif top is not None and top.code == "related-word" and prep != NO_PREP:
-            other = top.evidence.split("'")[1]
-            text += f" ('{other}' is right, but '{g}' is different.)"
-        elif top is not None and top.code == "directional":
-            text += f" '{prep}' shows movement; here English does not."
         return Advice(causes=causes, suggestion=suggestion, suggested_preposition=slot,
-                      suggestion_share=round(share, 4), native_pattern=native, explanation=text)
+                      suggestion_share=round(share, 4), native_pattern=native, explanation=text,
+                      by_object=tuple(by_object))
+
+
+def reason_for_learners(g: str, prep: str, cause: Cause | None) -> str | None:
+    """The likely cause as a sentence a learner understands, naming the word it comes from:
+    "By analogy with 'hear': we say 'hear something', but 'listen' is different." ``None`` when unclear."""
+    if cause is None or cause.code == "unclear":
+        return None
+    quoted = cause.evidence.split("'")[1] if cause.evidence.count("'") >= 2 else ""
+    if cause.code == "noun-pattern" and quoted and prep != NO_PREP:
+        noun = quoted.rsplit(" ", 1)[0]
+        article = "an" if noun[:1] in "aeiou" else "a"
+        return f"Carried over from the noun '{noun}': we say '{article} {noun} {prep} something'."
+    if cause.code == "related-word" and quoted:
+        other = quoted.split(" ")[0]
+        return f"By analogy with '{other}': we say '{_plain_use(quoted)}', but '{g}' is different."
+    if cause.code == "directional" and prep != NO_PREP:
+        return f"The word '{prep}' shows movement towards something; after '{g}' English does not use it."
+    if cause.code == "l1-transfer":
+        lang = cause.evidence.split("first language is ", 1)[-1].split(" (", 1)[0] if "first language is " in \
+            cause.evidence else ""
+        return f"Carried over from the first language{f' ({lang})' if lang else ''}."
+    label = (cause.label or "").strip()
+    return (label[0].upper() + label[1:] + ("" if label[-1:] in ".!?" else ".")) if label else None
+
+
+#: The ``by_object`` entry for objects of classes without their own evidence.
+OTHER_OBJECTS = "any other"
+
+
+def _plain_use(phrase: str) -> str:
+    """A related word's use as learners read it: "mind + object" -> "mind something"."""
+    if phrase.endswith(" + object"):
+        return phrase[: -len(" + object")] + " something"
+    return phrase + " something"
+
+
+def object_words(classes: Sequence[str]) -> str:
+    """Object classes in words: "a place (a city, a country) or a building"; "something"
+    when a class has no useful name (other objects, or more than two kinds). Names beside places
+    are not named again (an unknown proper noun after a place preposition is mostly a town)."""
+    kinds = list(dict.fromkeys(classes))
+    if "place" in kinds and "name" in kinds:  # a name beside places reads as a place name
+        kinds.remove("name")
+    labels = [OBJECT_CLASSES[c] for c in kinds if c in OBJECT_CLASSES and c != "other"]
+    if not labels or len(labels) > 2 or len(labels) < len(kinds):
+        return "something"
+    return " or ".join(labels)
+
+
+def native_words(g: str, pos: str, slot: str, by_object: Sequence[tuple[str, str]] = ()) -> str:
+    """The native pattern in words: "depend on something", "be good at something", or, when the
+    kind of object decides, each slot with its objects: "arrive in a place (a city, a country),
+    at a building"."""
+    be = "be " if pos == "ADJ" else ""
+    if not by_object:
+        return f"{be}{g} something" if slot == NO_PREP else f"{be}{g} {slot} something"
+    groups: dict[str, list[str]] = {}
+    for cls, s in by_object:
+        groups.setdefault(s, []).append(cls)
+    parts = []
+    for s, cls in groups.items():
+        named = [c for c in cls if c != OTHER_OBJECTS]
+        words = object_words(named) if named else "something else"
+        if named and OTHER_OBJECTS in cls and words != "something":
+            words += " or something else"
+        parts.append(words if s == NO_PREP else f"{s} {words}")
+    return f"{be}{g} " + ", ".join(parts)
+
+
+def object_tallies(attachments: Iterable) -> dict[tuple, Counter]:
+    """Per pattern key: how many of its instances have an object of each class."""
+    out: dict[tuple, Counter] = defaultdict(Counter)
+    for a in attachments:
+        out[a.key][getattr(a, "object_class", "") or "other"] += 1
+    return out
 
 
 def l1_tallies(attachments: Iterable, l1_of: Mapping[str, str]) -> dict[tuple, Counter]:
@@ -187,14 +324,19 @@ def l1_tallies(attachments: Iterable, l1_of: Mapping[str, str]) -> dict[tuple, C
 
 
 def categorise(records: Sequence[PatternRecord], reference, rules: Rules,
-               l1_by_pattern: Mapping[tuple, Counter]) -> list[PatternRecord]:
-    """The records with :class:`~hingeword.record.Advice` for flagged and under-used patterns."""
+               l1_by_pattern: Mapping[tuple, Counter],
+               objects_by_pattern: Mapping[tuple, Counter] | None = None) -> list[PatternRecord]:
+    """The records with :class:`~hingeword.record.Advice` for flagged and under-used patterns.
+
+    :param objects_by_pattern: object classes per pattern (:func:`object_tallies`), so that
+        each suggestion fits the kind of object the class wrote.
+    """
     cat = Categoriser(reference, rules)
     out = []
     for r in records:
         if r.flagged:
             causes = cat.categorise(*r.key, l1_counts=l1_by_pattern.get(r.key))
-            out.append(r.with_(advice=cat.advise(*r.key, causes)))
+            out.append(r.with_(advice=cat.advise(*r.key, causes, (objects_by_pattern or {}).get(r.key))))
         elif r.status is Status.UNDER_USED:  # the native pattern the class avoids
             g, _, prep = r.key
             native = f"{g} something" if prep == NO_PREP else f"{g} {prep} something"

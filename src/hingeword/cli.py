@@ -27,6 +27,46 @@ from .files import clean_text
 from .record import parse_slot
 from .score import Thresholds
 
+def _classic_help() -> None:
+    """Help that reads as plain words: recent typer versions print an option's Python type
+    (``<bool>``, ``<str>``, ``<list[Path]>``) and wrap required arguments in braces
+    (``{essays}``). Flags get no type, values a short upper-case word (TEXT, PATH, N, or the
+    choices), arguments their name in capitals. Older typer versions lack these hooks and are
+    left as they are."""
+    core = getattr(typer, "core", None)
+    option, argument = getattr(core, "TyperOption", None), getattr(core, "TyperArgument", None)
+    if option is None or argument is None or not hasattr(option, "display_type_rich"):
+        return
+    words = {"str": "TEXT", "path": "PATH", "int": "N", "float": "NUMBER"}
+
+    def display(self, ctx):
+        if self.metavar is not None:
+            return self.metavar
+        if getattr(self, "is_flag", False) or getattr(self, "is_bool_flag", False):
+            return None
+        try:
+            label = self.display_type(ctx).strip("<>")
+        except Exception:  # noqa: BLE001 - help must never fail
+            return None
+        if label == "bool":
+            return None
+        if "|" in label and not label.startswith("list"):
+            return f"[{label}]"
+        base = label.removeprefix("list[").removesuffix("]").split(" ")[0].lower()
+        return words.get(base, base.upper())
+
+    option.display_type_rich = display
+    argument.display_type_rich = lambda self, ctx: None
+    if hasattr(argument, "_usage_display_name"):
+        def usage(self):
+            name = (self.metavar or self.name or "").upper()
+            return (name if self.required else f"[{name}]") + ("..." if self.nargs != 1 else "")
+
+        argument._usage_display_name = usage
+
+
+_classic_help()
+
 app = typer.Typer(
     help="Find the preposition patterns a class over-uses compared with native writing.",
     no_args_is_help=True,
@@ -64,8 +104,11 @@ ClassOpt = typer.Option(..., "--class", help="Class name, e.g. 'evening-b2'.")
 TermOpt = typer.Option(..., "--term", help="Term name, e.g. '2026-spring'.")
 NamesOpt = typer.Option(Names.pseudonyms, "--names", help="Writers as pseudonyms (S01, S02 …; the default) or real names.")
 QuietOpt = typer.Option(False, "--quiet", "-q", help="No progress bar.")
-GovernorArg = typer.Argument(..., help="Governor lemma, e.g. 'discuss'.")
-SlotArg = typer.Argument(..., help="Preposition, or 'object' (also '-') for a direct object.")
+GovernorArg = typer.Argument(..., help="The word the preposition belongs to (verb, adjective or noun), e.g. 'discuss'.",
+                             metavar="WORD")
+SlotArg = typer.Argument(..., help="Preposition ('about', 'in front of'), or 'object' (also '+ object' or '-') "
+                                   "for a direct object: the spelling the reports print is accepted.",
+                         metavar="PREPOSITION")
 
 
 def _fail(msg: str, code: int = 1):
@@ -147,7 +190,8 @@ def _main(
 @_command(app)
 @_with_threshold_options
 def scan(
-    essays: Path = typer.Argument(..., help="Folder of essays (.txt, .docx, .odt, or one .csv with writer,text)."),
+    essays: Path = typer.Argument(..., help="Folder of essays (.txt, .docx, .odt), or one .csv file with writer,text.",
+                                  metavar="ESSAYS"),
     class_name: str = ClassOpt,
     term: str = TermOpt,
     workspace: Path = WorkspaceOpt,
@@ -155,7 +199,7 @@ def scan(
     model: Optional[str] = typer.Option(None, "--model", help="spaCy pipeline (package name or path)."),
     processes: Optional[int] = typer.Option(None, "--processes", min=1, help="Parser processes (default: all cores)."),
     reference: list[str] = typer.Option([], "--reference", help="Reference name or folder (repeatable; default: brown and contemporary combined)."),
-    term_start: Optional[str] = typer.Option(None, "--term-start", help="First day of the term, YYYY-MM-DD (orders terms; default: today)."),
+    term_start: Optional[str] = typer.Option(None, "--term-start", help="First day of the term, YYYY-MM-DD (orders terms; default: the date in the term's name, e.g. '2026-spring' → 2026-03-01, else today, with a warning)."),
     l1: Optional[str] = typer.Option(None, "--l1", help="Learners' first language (ISO 639-1) when the manifest has none."),
     rules: list[Path] = typer.Option([], "--rules", help="Extra rules folder overlaying the bundled rules (repeatable)."),
     encoding: Optional[str] = typer.Option(None, "--encoding", help="Decode non-UTF-8 text files with this codec (e.g. cp1254) instead of guessing."),
@@ -186,11 +230,14 @@ def scan(
         _reports(workspace, class_name, term, out_dir, top=5, names=names, match=False)
 
 
-def _reports(workspace: Path, class_name: str, term: str, out_dir: Path, *, top: int, names: Names, match: bool) -> None:
+def _reports(workspace: Path, class_name: str, term: str, out_dir: Path, *, top: int, names: Names, match: bool,
+             names_on_sheets: bool = False) -> None:
     from .report import make_reports
 
-    paths = make_reports(workspace, class_name, term, out_dir, top=top, names=names.value, match=match)
+    paths = make_reports(workspace, class_name, term, out_dir, top=top, names=names.value, match=match,
+                         names_on_sheets=names_on_sheets)
     out.print(f"reports written to {paths.folder}; open {paths.handout} first")
+    out.print(f"who is who (private, not for sharing): {paths.key}")
 
 
 @_command(app)
@@ -202,9 +249,11 @@ def report(
     top: int = typer.Option(5, "--top", min=1, help="Patterns on the class handout."),
     names: Names = NamesOpt,
     match_writers: bool = typer.Option(False, "--match-writers", help="Link writers to last term's by name similarity (see 'trends --match-writers')."),
+    names_on_sheets: bool = typer.Option(False, "--names-on-sheets", help="Print each student's name on their feedback sheet (other pages keep --names)."),
 ):
-    """Write the class handout (with teacher copy), teacher overview, student sheets and patterns.csv."""
-    _reports(workspace, class_name, term, out_dir, top=top, names=names, match=match_writers)
+    """Write the class handout (with teacher copy), teacher overview, student sheets, patterns.csv and the private key.html."""
+    _reports(workspace, class_name, term, out_dir, top=top, names=names, match=match_writers,
+             names_on_sheets=names_on_sheets)
 
 
 @_command(app)
@@ -228,7 +277,7 @@ def export(
 @_command(app)
 def concordance(
     governor: str = GovernorArg,
-    preposition: str = SlotArg,
+    preposition: list[str] = SlotArg,
     class_name: str = ClassOpt,
     term: str = TermOpt,
     workspace: Path = WorkspaceOpt,
@@ -238,8 +287,8 @@ def concordance(
     """Print key-word-in-context lines of one pattern with writer ids (pseudonymised by default)."""
     from .export import concordance_lines
 
-    lines = concordance_lines(workspace, class_name, term, governor, parse_slot(preposition), names=names.value,
-                              width=width)
+    lines = concordance_lines(workspace, class_name, term, governor, parse_slot(" ".join(preposition)),
+                              names=names.value, width=width)
     for line in lines:
         out.print(line)
     err.print(f"{len(lines)} lines")
@@ -275,7 +324,7 @@ def _scope(class_name: Optional[str], all_classes: bool) -> Optional[str]:
 @_command(app)
 def dismiss(
     governor: str = GovernorArg,
-    preposition: str = SlotArg,
+    preposition: list[str] = SlotArg,
     class_name: Optional[str] = ScopeClass,
     all_classes: bool = AllClasses,
     reason: str = typer.Option(..., "--reason", help="Why (shown in the teacher overview)."),
@@ -284,8 +333,8 @@ def dismiss(
     """Dismiss a flagged pattern: it leaves the handouts and stays listed in the overview."""
     from .review import dismiss as do_dismiss
 
-    res = do_dismiss(workspace, governor.lower(), parse_slot(preposition), class_name=_scope(class_name, all_classes),
-                     reason=reason)
+    res = do_dismiss(workspace, governor.lower(), parse_slot(" ".join(preposition)),
+                     class_name=_scope(class_name, all_classes), reason=reason)
     out.print(f"dismissed '{res.label}' for {res.scope}: {reason}")
     if not res.occurrences:
         err.print(f"Warning: '{res.label}' does not occur in any stored run of {res.scope}; check the spelling "
@@ -296,7 +345,7 @@ def dismiss(
 @_command(app)
 def restore(
     governor: str = GovernorArg,
-    preposition: str = SlotArg,
+    preposition: list[str] = SlotArg,
     class_name: Optional[str] = ScopeClass,
     all_classes: bool = AllClasses,
     workspace: Path = WorkspaceOpt,
@@ -304,7 +353,8 @@ def restore(
     """Undo a dismissal."""
     from .review import restore as do_restore
 
-    res = do_restore(workspace, governor.lower(), parse_slot(preposition), class_name=_scope(class_name, all_classes))
+    res = do_restore(workspace, governor.lower(), parse_slot(" ".join(preposition)),
+                     class_name=_scope(class_name, all_classes))
     out.print(f"restored '{res.label}' for {res.scope}")
     err.print("Rebuild the reports to update the handouts: hingeword report --class … --term …")
 

@@ -41,6 +41,7 @@ def scan_summary(result, top: int) -> list[str]:
              f"{result.class_name} / {result.term}: {plural(len(ing.essays), 'essay')} read, {len(ing.skipped)} skipped, "
              f"{plural(ing.word_count, 'word')}; parsed {st.parsed}, from cache {st.from_cache}"]
     lines += [f"  skipped {s.source}: {s.reason}" for s in ing.skipped]
+    lines += [f"  manifest problem, {s.source}: {s.reason}" for s in getattr(ing, "manifest_problems", ())]
     lines += [f"  identical essays (kept): {', '.join(group)}" for group in ing.duplicates]
     lines += [f"  near-duplicates (kept): {nd.first} ~ {nd.second} ({nd.similarity:.0f}%)" for nd in ing.near_duplicates]
     for (lemma, pos), (known, known_pos) in sorted(result.typo_groups.items()):
@@ -48,6 +49,12 @@ def scan_summary(result, top: int) -> list[str]:
         lines.append(f"  spelling: '{lemma}' ({pos}) counted as {target}")
     if result.typo_groups:
         lines.append("  (a word right as written: scan again with --keep-spelling WORD; the overview lists them all)")
+    if getattr(result, "term_note", ""):
+        lines.append(f"  Warning: {result.term_note}")
+    order = getattr(result, "term_order", [])
+    if len(order) > 1:
+        lines.append(f"  terms of {result.class_name} in order: "
+                     + " → ".join(f"{t} ({start})" for t, start in order))
     records = result.records
     used = [r for r in records if r.learner_count > 0]
     flagged = [r for r in records if r.flagged]
@@ -62,6 +69,14 @@ def scan_summary(result, top: int) -> list[str]:
             a = r.advice
             cause = a.cause.label if a and a.cause else ""
             lines.append(f"  {r.label}: {cause} → {a.suggestion if a else ''} — {a.explanation if a else ''}")
+    # a native form the class avoids where it over-uses another is the same finding: said with the flag
+    sides = {(r.governor, r.governor_pos, s) for r in flagged if r.advice
+             for s in {r.advice.suggested_preposition, *(x for _, x in r.advice.by_object)}}
+    folded = [r for r in under if r.key in sides]
+    under = [r for r in under if r.key not in sides]
+    if folded:
+        lines.append("  (the other side of these flags: " + "; ".join(
+            f"{r.label} {r.learner_count}× in the class, natives {100 * r.reference_share:.0f}%" for r in folded) + ")")
     if under:
         lines.append("Under-used (native patterns the class avoids):")
         lines += ["  " + line for line in pattern_lines(under[:top])]

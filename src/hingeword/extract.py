@@ -28,12 +28,19 @@ English pipelines use them):
 
 Repairs for learner errors that mislead the small pipeline (each documented in
 :func:`repaired_pos`).
+
+Each attachment also carries the coarse class of its object (:func:`object_class`:
+"arrived in *Rome*" → ``place``, "at the *station*" → ``building``), so that a
+suggestion can follow what native writers do with that kind of object.
 """
 
 from __future__ import annotations
 
+import functools
 import re
 from dataclasses import dataclass
+
+from spacy.lang.en.stop_words import STOP_WORDS
 
 from .record import NO_PREP
 
@@ -91,6 +98,7 @@ class Attachment:
     prep_start: int
     prep_end: int
     original_governor: str = ""  # lemma before typo grouping, "" if unchanged
+    object_class: str = ""  # coarse class of the object (OBJECT_CLASSES), "" when not recorded
 
     @property
     def key(self) -> tuple[str, str, str]:
@@ -176,8 +184,141 @@ def _multiword_at(doc, i: int) -> tuple[str, ...] | None:
     return None
 
 
-def _make(gov, first, last, prep: str, relation: str, essay_id: str, writer: str) -> Attachment:
+#: Coarse classes of a preposition's object (or of a direct object), with how a learner
+#: reads them: "arrive *in* a place (a city, a country)", "arrive *at* a building". Buildings stand for
+#: every man-made thing (WordNet's artifacts), events for acts, events and processes, institutions for groups.
+OBJECT_CLASSES = {
+    "place": "a place (a city, a country)",
+    "building": "a building",
+    "event": "an event",
+    "time": "a time",
+    "person": "a person",
+    "group": "an institution",
+    "idea": "an idea or subject",
+    "nature": "a living thing or substance",
+    "name": "a name (a town, a person)",
+    "other": "something",
+}
+#: WordNet lexicographer file of a noun's first sense (``rules/wordnet/noun_classes.tsv``)
+#: -> coarse class. Natural objects (sea, beach, mountain) read as places.
+_LEXFILE_CLASS = {
+    "location": "place", "object": "place", "artifact": "building",
+    "event": "event", "act": "event", "process": "event", "phenomenon": "event",
+    "time": "time", "person": "person", "group": "group",
+    "cognition": "idea", "communication": "idea", "attribute": "idea", "feeling": "idea", "state": "idea",
+    "motive": "idea", "relation": "idea", "quantity": "idea", "shape": "idea", "possession": "idea",
+    "tops": "idea", "animal": "nature", "plant": "nature", "body": "nature", "food": "nature",
+    "substance": "nature",
+}
+_PERSON_PRONOUNS = frozenset(
+    """me you him her us them myself yourself himself herself ourselves yourselves themselves everyone
+    everybody someone somebody anyone anybody nobody whom who""".split()
+)
+
+
+@functools.lru_cache(maxsize=1)
+def noun_classes() -> dict[str, str]:
+    """The bundled noun -> lexicographer-class table (``rules/wordnet/noun_classes.tsv``), read once."""
+    from .rules import bundled_rules_dir
+
+    path = bundled_rules_dir() / "wordnet" / "noun_classes.tsv"
+    out: dict[str, str] = {}
+    try:
+        lines = path.read_text(encoding="utf-8").splitlines()
+    except OSError:
+        return out
+    for line in lines[2:]:  # a comment line, then the header
+        noun, _, lexfile = line.partition("\t")
+        out[noun] = lexfile
+    return out
+
+
+def object_class(obj) -> str:
+    """The coarse class (:data:`OBJECT_CLASSES`) of an object token, ``None`` giving ``other``.
+
+    A proper noun is a ``place`` when WordNet's first sense of it is a location
+    ("Rome", "New York" with its compound), else a ``name`` (a person or an unknown
+    town alike: no entity recogniser runs); a common noun takes the class of its
+    first WordNet sense; a personal pronoun is a ``person``; a verb (a gerund: "good
+    at *swimming*") an ``event``.
+    """
+    if obj is None:
+        return "other"
+    table = noun_classes()
+    if obj.pos_ == "PROPN":
+        words = [c.lower_ for c in obj.lefts if c.dep_ == "compound" and c.pos_ == "PROPN"] + [obj.lower_]
+        for cand in (" ".join(words), obj.lower_):
+            if table.get(cand) in ("location", "object"):
+                return "place"
+        return "name"
+    if obj.pos_ == "NOUN":
+        lexfile = table.get(obj.lemma_.lower()) or table.get(obj.lower_)
+        return _LEXFILE_CLASS.get(lexfile, "other")
+    if obj.pos_ == "PRON":
+        return "person" if obj.lower_ in _PERSON_PRONOUNS else "other"
+    if obj.pos_ == "VERB" or obj.tag_ == "VBG":
+        return "event"
+    return "other"
+
+
+def _object_of(prep):
+    """The object of a preposition token: its ``pobj`` (or a gerund ``pcomp``), else ``None``."""
+    for c in prep.children:
+        if c.dep_ == "pobj":
+            return c
+    for c in prep.children:
+        if c.dep_ == "pcomp":
+            return c
+    return None
+
+
+#: A line this short, without closing punctuation, followed by a line break and a capital is a
+#: title or heading the parser glued to the next sentence ("My first job\nWhen I arrived …").
+_TITLE_CHARS = 60
+#: A line ending in one of these ("I went there in\nAugust") is a wrapped sentence, not a title.
+_STOP_WORDS = STOP_WORDS
+_BLANK_LINE = re.compile(r"\n[ \t\r\f\v]*\n")
+
+
+def _line_breaks(text: str) -> list[tuple[int, int]]:
+    """(start, end) of each line break in a sentence's text that ends a piece of its own: a blank
+    line, or the break after a short unpunctuated line (not ending in a function word) when the
+    next line starts with a capital or a digit."""
+    out = [(m.start(), m.end()) for m in _BLANK_LINE.finditer(text)]
+    line_start = 0
+    for i, ch in enumerate(text):
+        if ch != "\n":
+            continue
+        line = text[line_start:i].strip()
+        nxt = text[i + 1:].lstrip()
+        last = line.rsplit(None, 1)[-1].lower() if line else ""
+        if (line and len(line) <= _TITLE_CHARS and line[-1] not in ".,;:-–(" and last not in _STOP_WORDS
+                and (nxt[:1].isupper() or nxt[:1].isdigit())):
+            out.append((i, i + 1))
+        line_start = i + 1
+    return sorted(out)
+
+
+def sentence_span(sent, lo: int, hi: int) -> tuple[str, int]:
+    """The sentence text holding the characters ``lo``..``hi`` of the doc, and its start offset: the
+    parser's sentence, less a title or paragraph it glued on (:func:`_line_breaks`)."""
+    text, start = sent.text, sent.start_char
+    if "\n" not in text:
+        return text, start
+    a, b = lo - start, hi - start
+    cut_lo, cut_hi = 0, len(text)
+    for s_, e_ in _line_breaks(text):
+        if e_ <= a:
+            cut_lo = e_
+        elif s_ >= b and cut_hi == len(text):
+            cut_hi = s_
+    return text[cut_lo:cut_hi], start + cut_lo
+
+
+def _make(gov, first, last, prep: str, relation: str, essay_id: str, writer: str, obj=None) -> Attachment:
     sent = gov.sent
+    lo, hi = min(gov.idx, first.idx), max(gov.idx + len(gov.text), last.idx + len(last.text))
+    sentence, sentence_start = sentence_span(sent, lo, hi)
     return Attachment(
         essay_id=essay_id,
         writer=writer,
@@ -186,12 +327,13 @@ def _make(gov, first, last, prep: str, relation: str, essay_id: str, writer: str
         governor_text=gov.text,
         preposition=prep,
         relation=relation,
-        sentence=sent.text,
-        sentence_start=sent.start_char,
+        sentence=sentence,
+        sentence_start=sentence_start,
         gov_start=gov.idx,
         gov_end=gov.idx + len(gov.text),
         prep_start=first.idx,
         prep_end=last.idx + len(last.text),
+        object_class=object_class(obj),
     )
 
 
@@ -220,7 +362,8 @@ def extract_doc(doc, essay_id: str = "", writer: str = "") -> list[Attachment]:
         consumed |= inside
         gov = governor_of(heads[0], span[0])
         if gov is not None:
-            out.append(_make(gov, span[0], span[-1], " ".join(seq), "multiword", essay_id, writer))
+            out.append(_make(gov, span[0], span[-1], " ".join(seq), "multiword", essay_id, writer,
+                             _object_of(span[-1])))
     for tok in doc:
         if tok.i in consumed:
             continue
@@ -248,11 +391,11 @@ def extract_doc(doc, essay_id: str = "", writer: str = "") -> list[Attachment]:
                 continue
             gov = governor_of(head, tok)
             if gov is not None:
-                out.append(_make(gov, tok, tok, word, relation, essay_id, writer))
+                out.append(_make(gov, tok, tok, word, relation, essay_id, writer, _object_of(tok)))
         elif dep == "dobj" and repaired_pos(head) == "VERB" and not _adverbial_object(tok):
             # the slot spans the object phrase up to its head ("the radio"), so a
             # suggested preposition can be inserted at its start
             first = tok.left_edge if tok.left_edge.i > head.i else tok
-            out.append(_make(head, first, tok, NO_PREP, "dobj", essay_id, writer))
+            out.append(_make(head, first, tok, NO_PREP, "dobj", essay_id, writer, tok))
     out.sort(key=lambda a: (a.gov_start, a.prep_start, a.preposition))
     return out

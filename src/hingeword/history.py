@@ -158,6 +158,12 @@ MIGRATIONS: list[tuple[str, str]] = [
         );
         """,
     ),
+    (
+        "0003_object_class",
+        """
+        ALTER TABLE attachments ADD COLUMN object_class TEXT NOT NULL DEFAULT '';
+        """,
+    ),
 ]
 
 #: scope of a decision that applies to every class
@@ -306,7 +312,8 @@ class Workspace:
         create = create and not read_only
         if not self.root.exists():
             if not create:
-                raise WorkspaceError(f"no workspace at {self.root} (run 'hingeword scan' first)")
+                raise WorkspaceError(f"no workspace at {Path(self.root).absolute()} (run 'hingeword scan' first, or "
+                                     "give the workspace folder with --workspace)")
             try:
                 self.root.mkdir(parents=True, exist_ok=True)  # another process may make it too
             except OSError as exc:
@@ -694,17 +701,27 @@ class Workspace:
         return [PatternRecord.from_row(json.loads(r[0])) for r in rows]
 
     @_translated
-    def writer_codes(self, class_name: str) -> dict[str, str]:
+    def writer_codes(self, class_name: str, same_as: dict[str, str] | None = None) -> dict[str, str]:
         """Stable pseudonyms for a class: "S01", "S02", … in order of first appearance.
 
         Runs are taken in term order, writers within a run alphabetically, so the
         codes of earlier terms never change when a later term is added.
+
+        :param same_as: writer id -> the id of the same student in an earlier term (links the
+            teacher confirmed, :mod:`hingeword.writer_links`): that writer keeps the earlier code.
         """
         codes: dict[str, str] = {}
+        same_as = same_as or {}
+        count = 0
         for run in self.runs_in_order(class_name):
             for writer in self.writers(run.id):
-                if writer not in codes:
-                    codes[writer] = f"S{len(codes) + 1:02d}"
+                if writer in codes:
+                    continue
+                if same_as.get(writer) in codes:
+                    codes[writer] = codes[same_as[writer]]
+                else:
+                    count += 1
+                    codes[writer] = f"S{count:02d}"
         return codes
 
     def forget(self, class_name: str, term: str | None = None) -> Forgotten:
@@ -770,6 +787,17 @@ class Workspace:
         return group
 
     @_translated
+    def canonical_class(self, class_name: str) -> str:
+        """The class's name as stored: ``class_name`` itself when a run has it, else the one stored
+        name that differs only in case ("Evening-B2" → "evening-b2"), else ``class_name``."""
+        if class_name is None:
+            return class_name
+        names = {r[0] for r in self.conn.execute("SELECT DISTINCT class FROM runs")}
+        if class_name in names:
+            return class_name
+        same = [n for n in names if n.casefold() == class_name.casefold()]
+        return same[0] if len(same) == 1 else class_name
+
     def require_class(self, class_name: str) -> None:
         """Raise a clear error when no run of the class (or of a class linked to it) exists."""
         if not self.runs_in_order(class_name):

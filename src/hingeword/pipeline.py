@@ -39,6 +39,10 @@ class ScanResult:
     reference_name: str = ""
     thresholds: Thresholds = field(default_factory=Thresholds)
     settings: dict = field(default_factory=dict)
+    #: how the term's start date was chosen when --term-start was not given ("" when it was, or kept)
+    term_note: str = ""
+    #: the class's terms in order after this scan: (term, start date)
+    term_order: list[tuple[str, str]] = field(default_factory=list)
 
     @property
     def flagged(self) -> list[PatternRecord]:
@@ -46,8 +50,8 @@ class ScanResult:
 
 
 def ingest_notes(result: IngestResult) -> list[tuple[str, str]]:
-    """Duplicate and near-duplicate warnings as (kind, message) notes."""
-    notes = []
+    """Manifest problems, duplicate and near-duplicate warnings as (kind, message) notes."""
+    notes = [("manifest", f"{p.source}: {p.reason}") for p in result.manifest_problems]
     for group in result.duplicates:
         notes.append(("duplicate", f"identical essays (all kept): {', '.join(group)}"))
     for nd in result.near_duplicates:
@@ -127,7 +131,7 @@ def scan(
         (parsing and extraction, essay by essay), ``"score"``, ``"store"``.
     """
     from . import reference as ref_mod
-    from .causes import categorise, l1_tallies
+    from .causes import categorise, l1_tallies, object_tallies
     from .rules import load_rules
     from .score import score_patterns
 
@@ -143,6 +147,7 @@ def scan(
     _require_essays(ingest, folder, class_name, term)
     ws = Workspace(workspace)
     try:
+        class_name = ws.canonical_class(class_name)  # "Evening-B2" joins the stored "evening-b2"
         stats = ParseStats()
         texts = [e.text for e in ingest.essays]
         done = 0
@@ -167,10 +172,11 @@ def scan(
         pool = pooled_tally(ws, class_name, term, thresholds.pool, tally)
         records = score_patterns(tally, reference, thresholds, pool=pool)
         l1_of = {e.writer: (e.l1 or l1 or "").strip().lower() for e in ingest.essays}
-        records = categorise(records, reference, rules, l1_tallies(attachments, l1_of))
+        records = categorise(records, reference, rules, l1_tallies(attachments, l1_of), object_tallies(attachments))
+        term_note = ""
         if term_start is None:  # a re-scan keeps the term's recorded start, so term order holds
             old = ws.find_run(class_name, term)
-            term_start = old.term_start if old is not None else _dt.date.today().isoformat()
+            term_start, term_note = _term_start(ws, class_name, term, old)
         run_settings = {**thresholds.as_dict(), "term_start": term_start, "l1": l1, "keep_spelling": keep}
         run_meta = {
             "tool_version": __version__,
@@ -201,10 +207,31 @@ def scan(
             attachments=attachments,
             records=records,
         )
+        order = [(r.term, r.term_start) for r in ws.runs_in_order(class_name)]
     finally:
         ws.close()
     return ScanResult(
         run_id=run_id, class_name=class_name, term=term, model=info, ingest=ingest, parse_stats=stats,
         attachments=len(attachments), records=records, typo_groups=groups, reference_name=reference.name,
-        thresholds=thresholds, settings=run_settings,
+        thresholds=thresholds, settings=run_settings, term_note=term_note, term_order=order,
     )
+
+
+def _term_start(ws: Workspace, class_name: str, term: str, old) -> tuple[str, str]:
+    """The start date of a term scanned without ``--term-start``, and a note saying how it was chosen:
+    the recorded one on a re-scan, else the date the term's name carries
+    (:func:`hingeword.terms.infer_term_start`), else today (a warning when the class has other terms)."""
+    from .terms import infer_term_start
+
+    if old is not None:
+        return old.term_start, ""
+    guessed = infer_term_start(term)
+    if guessed:
+        return guessed, (f"term start {guessed} taken from the term name '{term}'; if that is wrong, scan again "
+                         "with --term-start YYYY-MM-DD (terms are ordered by their start dates)")
+    today = _dt.date.today().isoformat()
+    if any(r.term != term for r in ws.runs_in_order(class_name)):
+        return today, (f"no --term-start and none in the name '{term}': today ({today}) is taken as its start; "
+                       "terms are ordered by their start dates, so scan again with --term-start YYYY-MM-DD "
+                       "if this term is not the latest")
+    return today, ""

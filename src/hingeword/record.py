@@ -56,6 +56,20 @@ STATUS_GLOSSES = {
 }
 
 
+#: Short plain names of the statuses for the teacher's pages (the exports keep the status values above).
+STATUS_PLAIN = {
+    Status.OVER_USED: "over-used",
+    Status.UNDER_USED: "natives use it more",
+    Status.NATIVE_FORM: "used more than natives, but natural English",
+    Status.THIN: "unusual, but too few uses to tell",
+    Status.ADJUNCT: "a habit with this preposition in general",
+    Status.AS_NATIVE: "like native writers",
+    Status.NO_REFERENCE: "too rare in native writing to compare",
+    Status.CONCENTRATED: "one or two writers' habit",
+    Status.TOO_RARE: "too few uses to tell",
+}
+
+
 class Since(str, Enum):
     """How a pattern compares with the previous term of the class (a code; reports put it into words)."""
 
@@ -89,10 +103,33 @@ class Advice:
     suggestion_share: float | None = None
     native_pattern: str = ""
     explanation: str = ""
+    #: (object class, slot) when the kind of object decides the native slot ("place" -> "in",
+    #: "building" -> "at"; "any other" for the rest); empty when it changes nothing
+    by_object: tuple[tuple[str, str], ...] = ()
 
     @property
     def cause(self) -> Cause | None:
         return self.causes[0] if self.causes else None
+
+    def preposition_for(self, object_class: str) -> str:
+        """The suggested slot for one sentence, by the class of its object."""
+        slots = dict(self.by_object)
+        return slots.get(object_class or "other") or slots.get("any other") or self.suggested_preposition
+
+
+def object_slots_text(pairs) -> str:
+    """``by_object`` as a readable cell: "place: in; building: at"."""
+    return "; ".join(f"{cls}: {slot}" for cls, slot in pairs)
+
+
+def parse_object_slots(text: str) -> tuple[tuple[str, str], ...]:
+    """Inverse of :func:`object_slots_text`."""
+    out = []
+    for part in (text or "").split("; "):
+        cls, sep, slot = part.partition(": ")
+        if sep:
+            out.append((cls, slot))
+    return tuple(out)
 
 
 @dataclass(frozen=True)
@@ -223,6 +260,7 @@ class PatternRecord(Keyed):
             "causes": [{"code": c.code, "confidence": c.confidence, "evidence": c.evidence, "label": c.label}
                        for c in a.causes],
             "suggested_preposition": a.suggested_preposition, "suggestion_share": a.suggestion_share,
+            "suggestion_by_object": object_slots_text(a.by_object),
             "native_pattern": a.native_pattern, "explanation": a.explanation,
             "dismissed": self.decision is not None,
             "dismissed_reason": self.decision.reason if self.decision else "",
@@ -255,14 +293,15 @@ class PatternRecord(Keyed):
             kw["status"] = Status(kw["status"])
         causes = tuple(Cause(code=c["code"], confidence=float(c["confidence"]), evidence=c["evidence"],
                              label=c["label"]) for c in row.get("causes") or ())
-        advice_keys = ("suggestion", "suggested_preposition", "native_pattern", "explanation")
+        advice_keys = ("suggestion", "suggested_preposition", "native_pattern", "explanation", "suggestion_by_object")
         if causes or any(row.get(k) for k in advice_keys):
             share = row.get("suggestion_share")
             kw["advice"] = Advice(causes=causes, suggestion=row.get("suggestion") or "",
                                   suggested_preposition=row.get("suggested_preposition") or "",
                                   suggestion_share=None if share is None or _isnan(share) else float(share),
                                   native_pattern=row.get("native_pattern") or "",
-                                  explanation=row.get("explanation") or "")
+                                  explanation=row.get("explanation") or "",
+                                  by_object=parse_object_slots(row.get("suggestion_by_object") or ""))
         if row.get("dismissed"):
             kw["decision"] = Decision(reason=row.get("dismissed_reason") or "", decided_on=row.get("dismissed_on") or "")
         if row.get("since_last_term"):
@@ -282,8 +321,8 @@ _FLOAT_FIELDS = tuple(f.name for f in _SCORE_FIELDS if f.type in ("float", float
 
 #: Columns of the flat form and of every export, in order: the contract columns, the
 #: top cause and suggestion, then the further figures, advice, decision and comparison.
-_ADVICE_COLUMNS = ("cause_label", "causes", "suggested_preposition", "suggestion_share", "native_pattern",
-                   "explanation")
+_ADVICE_COLUMNS = ("cause_label", "causes", "suggested_preposition", "suggestion_share", "suggestion_by_object",
+                   "native_pattern", "explanation")
 _VIEW_COLUMNS = ("dismissed", "dismissed_reason", "dismissed_on", "since_last_term", "rate", "previous_rate")
 CONTRACT = tuple(f.name for f in _SCORE_FIELDS if f.metadata.get("contract")) + ("cause", "suggestion")
 COLUMNS = CONTRACT + tuple(f.name for f in _SCORE_FIELDS if not f.metadata.get("contract")) + _ADVICE_COLUMNS \
@@ -298,6 +337,8 @@ GLOSSES: dict[str, str] = {
     "causes": "every candidate cause with its confidence (0-1) and evidence from the reference",
     "suggested_preposition": "the suggested preposition, or '-' for a direct object",
     "suggestion_share": "share of the governor's native uses that take the suggestion",
+    "suggestion_by_object": "when the kind of object decides: the native slot per object class of the class's "
+                            "sentences ('place: in; building: at'; classes in docs/columns.md)",
     "native_pattern": "the native pattern in words",
     "explanation": "a short explanation for learners",
     "dismissed": "true when the teacher dismissed the pattern",
@@ -307,6 +348,38 @@ GLOSSES: dict[str, str] = {
     "rate": "uses per 10,000 words this term",
     "previous_rate": "uses per 10,000 words in the previous term (empty in the first term)",
 }
+
+
+#: Candidate causes written out in exports, each as four readable columns (there are at most four codes
+#: with evidence: noun-pattern, related-word, directional, l1-transfer).
+EXPORT_CAUSES = 4
+_CAUSE_COLUMNS = tuple(f"cause_{i}{part}" for i in range(1, EXPORT_CAUSES + 1)
+                       for part in ("", "_code", "_confidence", "_evidence"))
+#: Columns of the pattern exports (CSV, XLSX, JSON): :data:`COLUMNS` with the nested ``causes`` written out
+#: as ``cause_1`` … ``cause_4`` (label, code, confidence, evidence), so no cell holds JSON.
+EXPORT_COLUMNS = tuple(c for col in COLUMNS for c in (_CAUSE_COLUMNS if col == "causes" else (col,)))
+GLOSSES.update({
+    **{f"cause_{i}": f"candidate cause {i} in words (1 = most likely; empty when fewer were found)"
+       for i in range(1, EXPORT_CAUSES + 1)},
+    **{f"cause_{i}_code": f"candidate cause {i} as a code (see 'cause')" for i in range(1, EXPORT_CAUSES + 1)},
+    **{f"cause_{i}_confidence": f"confidence of candidate cause {i}, 0-1: how strongly the reference supports it "
+       "(docs/methods.md)" for i in range(1, EXPORT_CAUSES + 1)},
+    **{f"cause_{i}_evidence": f"evidence for candidate cause {i}, with reference counts"
+       for i in range(1, EXPORT_CAUSES + 1)},
+})
+
+
+def export_row(record: PatternRecord) -> dict:
+    """The record as one export row, in :data:`EXPORT_COLUMNS` order (causes written out)."""
+    row = record.to_row()
+    causes = row.pop("causes") or []
+    for i in range(1, EXPORT_CAUSES + 1):
+        c = causes[i - 1] if i <= len(causes) else None
+        row[f"cause_{i}"] = c["label"] if c else ""
+        row[f"cause_{i}_code"] = c["code"] if c else ""
+        row[f"cause_{i}_confidence"] = c["confidence"] if c else None
+        row[f"cause_{i}_evidence"] = c["evidence"] if c else ""
+    return {k: row[k] for k in EXPORT_COLUMNS}
 
 
 def key_label(governor: str, preposition: str) -> str:

@@ -7,7 +7,12 @@ A reference is a directory holding
   and the sha256 of each data file;
 * ``patterns.tsv.gz`` — ``governor, governor_pos, preposition, count``;
 * ``lemmas.tsv.gz`` — ``lemma, pos, tokens``: every VERB/ADJ/NOUN token's lemma
-  (the lexicon typo grouping checks against, and each governor's token count).
+  (the lexicon typo grouping checks against, and each governor's token count);
+* ``objects.tsv.gz`` (format 2, optional) — ``governor, governor_pos, preposition,
+  object_class, count``: the pattern counts split by the class of the object
+  (:data:`hingeword.extract.OBJECT_CLASSES`), from which a suggestion follows what
+  native writers do with a place, a building, an event … A reference without it
+  (format 1, CoNLL-U builds) still loads; its suggestions then ignore the object.
 
 The 2x2 totals of docs/methods.md §1 follow from the pattern counts: R1 = sum of a
 governor's rows, C1 = sum of a preposition's rows, N = sum of all rows.
@@ -41,11 +46,12 @@ from .errors import ReferenceDataError
 
 log = logging.getLogger("hingeword")
 
-FORMAT_VERSION = 1
+#: 2: ``objects.tsv.gz`` added (a format-1 reference, without it, still loads).
+FORMAT_VERSION = 2
 #: The default reference: Brown (1961 edited prose) and the contemporary many-genre collection,
 #: combined by adding counts. Either can be chosen alone with ``--reference``.
 BUNDLED = ("brown", "contemporary")
-_DATA_FILES = ("patterns.tsv.gz", "lemmas.tsv.gz")
+_DATA_FILES = ("patterns.tsv.gz", "lemmas.tsv.gz", "objects.tsv.gz")
 _CHUNK_CHARS = 20_000
 
 
@@ -57,6 +63,7 @@ class Reference:
     patterns: Counter = field(default_factory=Counter)  # (gov, pos, prep) -> count
     lemmas: Counter = field(default_factory=Counter)  # (lemma, pos) -> tokens
     path: str = ""
+    objects: Counter = field(default_factory=Counter)  # (gov, pos, prep, object class) -> count
 
     @property
     def name(self) -> str:
@@ -218,8 +225,12 @@ def save(ref: Reference, out_dir: str | Path) -> Path:
             "patterns.tsv.gz": _write_tsv_gz(tmp / "patterns.tsv.gz", ("governor", "governor_pos", "preposition", "count"), pat_rows),
             "lemmas.tsv.gz": _write_tsv_gz(tmp / "lemmas.tsv.gz", ("lemma", "pos", "tokens"), lem_rows),
         }
+        if ref.objects:
+            obj_rows = sorted(((*k, n) for k, n in ref.objects.items()), key=lambda r: r[:4])
+            files["objects.tsv.gz"] = _write_tsv_gz(
+                tmp / "objects.tsv.gz", ("governor", "governor_pos", "preposition", "object_class", "count"), obj_rows)
         manifest = dict(ref.manifest)
-        manifest["format_version"] = FORMAT_VERSION
+        manifest["format_version"] = FORMAT_VERSION if ref.objects else 1
         manifest["attachments"] = sum(ref.patterns.values())
         manifest["patterns"] = len(ref.patterns)
         manifest["files"] = files
@@ -299,6 +310,13 @@ def _load(path: Path) -> Reference:
             raise ReferenceDataError(f"reference file {lemmas_path} has a malformed row: {row!r}")
         lem, p, n = row
         ref.lemmas[(lem, p)] += _count(n, lemmas_path, row)
+    if "objects.tsv.gz" in files:  # format 2
+        objects_path = path / "objects.tsv.gz"
+        for row in _read_tsv_gz(objects_path, files.get("objects.tsv.gz")):
+            if len(row) != 5:
+                raise ReferenceDataError(f"reference file {objects_path} has a malformed row: {row!r}")
+            g, p, prep, cls, n = row
+            ref.objects[(g, p, prep, cls)] += _count(n, objects_path, row)
     return ref
 
 
@@ -386,6 +404,7 @@ def load_many(names: Sequence[str], workspace: str | Path | None = None) -> Refe
     for r in refs:
         combined.patterns.update(r.patterns)
         combined.lemmas.update(r.lemmas)
+        combined.objects.update(r.objects)
     combined.manifest["attachments"] = combined.total
     return combined
 
@@ -421,12 +440,14 @@ def _chunks(text: str) -> Iterator[str]:
         yield "\n\n".join(buf)
 
 
-def count_doc(doc, patterns: Counter, lemmas: Counter) -> tuple[int, int]:
-    """Add one parsed text's attachments and lemma tokens; return (words, sentences)."""
+def count_doc(doc, patterns: Counter, lemmas: Counter, objects: Counter | None = None) -> tuple[int, int]:
+    """Add one parsed text's attachments (and by object class) and lemma tokens; return (words, sentences)."""
     from .extract import GOVERNOR_POS, extract_doc, repaired_pos
 
     for a in extract_doc(doc):
         patterns[a.key] += 1
+        if objects is not None:
+            objects[(*a.key, a.object_class)] += 1
     words = 0
     for t in doc:
         if t.is_alpha:
@@ -451,10 +472,12 @@ class Counts:
     words: int = 0
     sentences: int = 0
     documents: int = 0
+    objects: Counter = field(default_factory=Counter)  # (gov, pos, prep, object class) -> count
 
     def add(self, other: Counts) -> Counts:
         self.patterns.update(other.patterns)
         self.lemmas.update(other.lemmas)
+        self.objects.update(other.objects)
         self.words += other.words
         self.sentences += other.sentences
         self.documents += other.documents
@@ -493,7 +516,7 @@ def count_documents(docs: Iterable[tuple[str, str]], fmt: str = "text", nlp=None
     # so a document is complete when its last piece comes back.
     current = Counts(documents=1)
     for doc, (name, last) in nlp.pipe(stream(), as_tuples=True, batch_size=8, n_process=max(1, processes)):
-        w, s = count_doc(doc, current.patterns, current.lemmas)
+        w, s = count_doc(doc, current.patterns, current.lemmas, current.objects)
         current.words += w
         current.sentences += s
         if last:
@@ -592,7 +615,8 @@ def build(
                 if state.get("key") == key:
                     saved = load(partial)
                     done = list(state["done"])
-                    total = Counts(Counter(saved.patterns), Counter(saved.lemmas), **state["totals"])
+                    total = Counts(Counter(saved.patterns), Counter(saved.lemmas), **state["totals"],
+                                   objects=Counter(saved.objects))
                     log.info("resuming reference build: %d of %d files already counted", len(done), len(files))
             except (ReferenceDataError, OSError, ValueError, KeyError, TypeError):
                 done, total = [], Counts()
@@ -601,7 +625,8 @@ def build(
         unsaved, saved_at = 0, time.monotonic()
 
         def checkpoint() -> None:
-            save(Reference(manifest={"name": name, "partial": True}, patterns=total.patterns, lemmas=total.lemmas), partial)
+            save(Reference(manifest={"name": name, "partial": True}, patterns=total.patterns, lemmas=total.lemmas,
+                           objects=total.objects), partial)
             state_path.write_text(json.dumps({"key": key, "done": done, "totals": total.totals()}), encoding="utf-8")
 
         def finish(names: list[str], counts: Counts, shards: tuple[int, int] = (0, 0)) -> None:
@@ -636,7 +661,7 @@ def build(
         "extractor_version": EXTRACTOR_VERSION,
         "build_date": build_date or _dt.date.today().isoformat(),
     }
-    path = save(Reference(manifest=manifest, patterns=total.patterns, lemmas=total.lemmas), out)
+    path = save(Reference(manifest=manifest, patterns=total.patterns, lemmas=total.lemmas, objects=total.objects), out)
     if _is_reference_dir(partial):
         _remove_reference_dir(partial)
     return path

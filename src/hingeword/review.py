@@ -41,6 +41,7 @@ def dismiss(workspace: str | Path, governor: str, preposition: str, *, class_nam
         raise WorkspaceError("give a reason for dismissing (it is shown in the teacher overview)")
     with Workspace(workspace, create=False) as ws:
         if class_name:
+            class_name = ws.canonical_class(class_name)
             ws.require_class(class_name)
         found = _occurrences(ws, governor, preposition, class_name)
         ws.dismiss(governor, preposition, class_name=class_name, reason=reason, on=on)
@@ -55,6 +56,7 @@ def restore(workspace: str | Path, governor: str, preposition: str, *, class_nam
     """
     with Workspace(workspace, create=False) as ws:
         if class_name:
+            class_name = ws.canonical_class(class_name)
             ws.require_class(class_name)
         if not ws.restore(governor, preposition, class_name=class_name, on=on):
             raise WorkspaceError(f"'{key_label(governor, preposition)}' was not dismissed for {class_name or 'all classes'}")

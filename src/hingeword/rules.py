@@ -99,6 +99,10 @@ class Rules:
         return [n for n in notes if (n.governor, n.learner) == wanted and n.pos in (None, pos or n.pos)]
 
 
+#: Tables of the bundled folder that extraction reads itself (never overlaid by a teacher's folder).
+EXTRACTION_TABLES = frozenset({"noun_classes.tsv"})
+
+
 def bundled_rules_dir() -> Path:
     """The rules folder shipped with hingeword (wheel) or the checkout's top-level ``rules/``."""
     installed = Path(str(resources.files("hingeword"))) / "rules"
@@ -132,7 +136,8 @@ def load_rules(extra_dirs: Sequence[Path] = ()) -> Rules:
 
 def _rule_files(folder: Path) -> list[Path]:
     """Tables (top or ``wordnet/``), then L1 files (top or ``l1/``), each group sorted."""
-    tables = [f for sub in (folder, folder / "wordnet") for f in sorted(sub.glob("*.tsv"))]
+    tables = [f for sub in (folder, folder / "wordnet") for f in sorted(sub.glob("*.tsv"))
+              if f.name not in EXTRACTION_TABLES]
     l1 = [f for sub in (folder, folder / "l1") for f in sorted([*sub.glob("*.yaml"), *sub.glob("*.yml")])]
     return tables + l1
 

@@ -79,6 +79,7 @@ def _own_flag(record) -> bool:
 
 def compute_trends(ws: Workspace, class_name: str) -> Trends:
     """Per pattern and term: count, writers, rate per 10,000 words, flag and status."""
+    class_name = ws.canonical_class(class_name)
     ws.require_class(class_name)
     runs = ws.runs_in_order(class_name)
     figs = [{r.key: r for r in ws.records(run.id)} for run in runs]

@@ -17,6 +17,7 @@ from .ingest import Essay, Skipped
 from .record import PatternRecord
 from .score import Thresholds, ranked
 from .trends import ProgressRow, compare_with_previous, writer_matches, writer_progress
+from .writer_links import confirmed_in_class, links_for
 
 
 @dataclass(frozen=True)
@@ -72,6 +73,7 @@ def load_run_view(ws: Workspace, class_name: str, term: str, *, match: bool = Fa
         (:func:`hingeword.trends.writer_matches`) for the per-writer progress.
     :param progress: compute the per-writer progress (the student sheets need it).
     """
+    class_name = ws.canonical_class(class_name)  # class names match whatever their case
     run = ws.run(class_name, term)
     previous = ws.previous_run(class_name, term)
     stored = ws.records(run.id)
@@ -84,11 +86,14 @@ def load_run_view(ws: Workspace, class_name: str, term: str, *, match: bool = Fa
     if previous is not None and progress:
         keys = {r.key for r in records if r.teachable}
         keys |= {r.key for r in prev_records if r.flagged and (r.governor, r.preposition) not in decisions}
-        same = {cur: prev for cur, prev, _ in writer_matches(ws, class_name, term)} if match else {}
+        confirmed, rejected = links_for(ws.root, class_name, term)
+        same = {cur: prev for cur, prev, _ in writer_matches(ws, class_name, term)
+                if (cur, prev) not in rejected} if match else {}
+        same.update(confirmed)
         rows = tuple(sorted(writer_progress(ws, class_name, term, sorted(keys), same_writer=same).items()))
     return RunView(
         run=run, records=records, attachments=tuple(ws.attachments(run.id)), essays=tuple(ws.essays(run.id)),
         skipped=tuple(ws.skipped(run.id)), notes=tuple(ws.notes(run.id)),
-        codes=tuple(sorted(ws.writer_codes(class_name).items())),
+        codes=tuple(sorted(ws.writer_codes(class_name, same_as=confirmed_in_class(ws.root, class_name)).items())),
         previous_term=previous.term if previous is not None else None, progress=rows,
     )

@@ -88,11 +88,17 @@ def read_essays(folder: str | Path, *, manifest: str | Path | None = None,
     root = Path(folder)
     if not root.exists():
         raise IngestError(f"essay folder not found: {root}")
-    if not root.is_dir():
-        raise IngestError(f"not a folder: {root} (give the folder that holds the essays)")
-    root_res = root.resolve()
     skipped: list[Skipped] = []
-    found = _scan(root, root_res, skipped)
+    if root.is_file() and root.suffix.lower() == ".csv":  # one table of essays (writer,text), given as a file
+        found = [_Found(root.name, root, root.resolve(), False)]
+        root = root.parent
+        root_res = root.resolve()
+    elif not root.is_dir():
+        raise IngestError(f"not a folder: {root} (give the folder that holds the essays, or one .csv file "
+                          "with writer,text columns)")
+    else:
+        root_res = root.resolve()
+        found = _scan(root, root_res, skipped)
 
     manifest_rows: dict[Path, _Info] = {}
     manifest_skips: list[Skipped] = []
@@ -108,10 +114,9 @@ def read_essays(folder: str | Path, *, manifest: str | Path | None = None,
     for f in found:
         essays.extend(_read_one(f, max_bytes, manifest_rows.get(f.resolved), skipped, encoding, max_chars))
     skipped.sort(key=lambda s: _order_key(s.source))
-    skipped.extend(manifest_skips)
 
     result = IngestResult(essays, skipped, _exact_duplicates(essays),
-                          _near_duplicates(essays, near_duplicate_threshold))
+                          _near_duplicates(essays, near_duplicate_threshold), manifest_problems=manifest_skips)
     log.info("read %d essays (%d words) from %s; %d skipped, %d duplicate groups, "
              "%d near-duplicate pairs", len(essays), result.word_count, root,
              len(skipped), len(result.duplicates), len(result.near_duplicates))

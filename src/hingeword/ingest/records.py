@@ -68,6 +68,9 @@ class IngestResult:
     skipped: list[Skipped] = field(default_factory=list)
     duplicates: list[tuple[str, ...]] = field(default_factory=list)
     near_duplicates: list[NearDuplicate] = field(default_factory=list)
+    #: problems of the manifest itself (a row naming a missing file, a first language that is not a
+    #: code): reported as such, not as skipped essays
+    manifest_problems: list[Skipped] = field(default_factory=list)
 
     @property
     def word_count(self) -> int:

@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import csv
 import os
+import re
 from pathlib import Path
 
 from hingeword.errors import IngestError
@@ -156,7 +157,10 @@ def _read_manifest(path: Path, root: Path, root_res: Path, found: list[_Found],
         if not resolved.is_relative_to(root_res):
             skips.append(Skipped(where, f"manifest row points outside the essay folder: {name}"))
         elif not resolved.exists():
-            skips.append(Skipped(where, f"manifest row names a file that does not exist: {name}"))
+            twin = _case_twin(resolved)
+            skips.append(Skipped(where, f"manifest row names a file that does not exist: {name}"
+                                 + (f" (the folder has '{twin}', which differs only in case: write the name exactly)"
+                                    if twin else "")))
         elif resolved.is_dir():
             skips.append(Skipped(where, f"manifest row names a folder, not a file: {name}"))
         elif not writer:
@@ -171,4 +175,22 @@ def _read_manifest(path: Path, root: Path, root_res: Path, found: list[_Found],
         else:
             first_line[resolved] = line
             out[resolved] = _row_info(header, cells, writer)
+            l1 = out[resolved].l1
+            if l1 and not _ISO_639_1.fullmatch(l1.strip()):
+                skips.append(Skipped(where, f"first language '{l1}' of {name} is not an ISO 639-1 code such as "
+                                            "'es' or 'pt-br': the essay is read, but no first-language note "
+                                            "applies to it"))
     return out
+
+
+#: An ISO 639-1 code, optionally with a region ("es", "pt-br", "zh_TW"): two letters (the form is checked,
+#: not membership of the list).
+_ISO_639_1 = re.compile(r"[A-Za-z]{2}(?:[-_][A-Za-z0-9]{2,8})?")
+
+
+def _case_twin(path: Path) -> str | None:
+    """The name of a file beside ``path`` that differs from it only in case, if any."""
+    try:
+        return next((p.name for p in path.parent.iterdir() if p.name.casefold() == path.name.casefold()), None)
+    except OSError:
+        return None

@@ -11,7 +11,10 @@ both for one stored run (read once as a :class:`~hingeword.view.RunView`) and wr
 * ``overview.html`` — for the teacher: every pattern with its figures, causes and
   evidence, concordance lines, skipped essays, notes, thresholds, dismissed patterns;
 * ``students.html`` — one printed page per writer with their own flagged sentences;
-* ``patterns.csv`` — the figures in the export column contract.
+* ``patterns.csv`` — the figures in the export column contract, with ``patterns.run.json``
+  (the run record and the column meanings) beside it;
+* ``key.html`` — private, for the teacher only: which student each pseudonym stands for
+  (linked from no page; the student sheets show names only with ``names_on_sheets``).
 
 :func:`write_trends` writes ``out_dir/<class>/trends.html`` from
 :func:`hingeword.trends.compute_trends`, with the charts as inline SVG.
@@ -35,13 +38,15 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from ..errors import HingewordError
-from ..export import records_frame, write_table
+from ..export import records_frame, run_record, write_table
 from ..files import write_text
 from ..history import Workspace
+from ..record import GLOSSES
 from ..view import RunView, load_run_view
 from .context import (
     SHEET_SENTENCES,
     build_handout_context,
+    build_key_context,
     build_students_context,
     learner_reason,
     pick_examples,
@@ -66,7 +71,7 @@ from .text import (
 __all__ = [
     "KWIC_LINES", "MAX_SENTENCE_CHARS", "NAMES", "SHEET_SENTENCES", "TREND_CHART_PATTERNS",
     "ReportPaths", "RunView", "Segments", "SentenceView", "Span",
-    "answer_key", "build_handout_context", "build_overview_context", "build_students_context",
+    "answer_key", "build_handout_context", "build_key_context", "build_overview_context", "build_students_context",
     "build_trends_context", "environment", "fmt_dec", "fmt_int", "fmt_ratio", "fmt_share",
     "learner_reason", "load_run_view", "pick_examples", "render", "segments",
     "sentence_view", "slugify", "write_reports", "write_trends", "make_reports", "make_trends", "TrendsOutcome",
@@ -88,6 +93,7 @@ class ReportPaths:
     overview: Path
     students: Path
     patterns_csv: Path
+    key: Path | None = None  # the private key from pseudonyms to students (key.html)
 
 
 #: The report pages of one run: name (a :class:`ReportPaths` field) → template.
@@ -96,22 +102,29 @@ PAGES = {"handout": "handout.html", "handout_teacher": "handout.html", "overview
 
 
 def report_pages(data: RunView, *, top: int = 5, names: str = "pseudonyms",
-                 today: str | None = None) -> dict[str, tuple[str, dict]]:
+                 today: str | None = None, names_on_sheets: bool = False) -> dict[str, tuple[str, dict]]:
     """Each report page of one run as ``name → (template, context)`` (what :func:`write_reports`
-    writes and the web page shows)."""
+    writes and the web page shows).
+
+    :param names_on_sheets: print each student's name on their sheet's name line (the
+        other pages keep ``names``).
+    """
     today = today or _dt.date.today().isoformat()
     return {
         "handout": (PAGES["handout"], build_handout_context(data, top=top, today=today, teacher=False)),
         "handout_teacher": (PAGES["handout_teacher"], build_handout_context(data, top=top, today=today, teacher=True)),
         "overview": (PAGES["overview"], build_overview_context(data, names=names, today=today)),
-        "students": (PAGES["students"], build_students_context(data, names=names, today=today)),
+        "students": (PAGES["students"], build_students_context(data, names=names, today=today,
+                                                               names_on_sheets=names_on_sheets)),
     }
 
 
 def write_reports(ws: Workspace, class_name: str, term: str, out_dir: Path, *, top: int = 5,
                   names: str = "pseudonyms", today: str | None = None,
-                  template_dir: Path | None = None, match: bool = False) -> ReportPaths:
-    """Write the handouts, overview, student sheets and ``patterns.csv`` of one run.
+                  template_dir: Path | None = None, match: bool = False,
+                  names_on_sheets: bool = False) -> ReportPaths:
+    """Write the handouts, overview, student sheets, ``patterns.csv`` (with ``patterns.run.json``)
+    and the private ``key.html`` (pseudonym → student; for the teacher only, linked from no page) of one run.
 
     :param ws: the workspace holding the run.
     :param out_dir: reports go to ``out_dir/<class>/<term>/`` (names slugified).
@@ -120,6 +133,7 @@ def write_reports(ws: Workspace, class_name: str, term: str, out_dir: Path, *, t
     :param today: the date printed on the pages (default: today, ISO format).
     :param template_dir: a folder of templates that replace the bundled ones by name.
     :param match: link writers to last term's by name similarity for the progress lines.
+    :param names_on_sheets: print each student's name on their sheet.
     :raises HingewordError: unknown ``names``, no such run, or a broken template.
     """
     if names not in NAMES:
@@ -131,10 +145,12 @@ def write_reports(ws: Workspace, class_name: str, term: str, out_dir: Path, *, t
     _make_folder(folder)
     paths = ReportPaths(folder=folder, handout=folder / "handout.html", handout_teacher=folder / "handout-teacher.html",
                         overview=folder / "overview.html", students=folder / "students.html",
-                        patterns_csv=folder / "patterns.csv")
-    for page, (template, context) in report_pages(data, top=top, names=names, today=today).items():
+                        patterns_csv=folder / "patterns.csv", key=folder / "key.html")
+    pages = report_pages(data, top=top, names=names, today=today, names_on_sheets=names_on_sheets)
+    for page, (template, context) in pages.items():
         write_text(getattr(paths, page), render(template, context, env=env))
-    write_table(records_frame(data.records), paths.patterns_csv)
+    write_text(paths.key, render("key.html", build_key_context(data, today=today), env=env))
+    write_table(records_frame(data.records), paths.patterns_csv, run_record(data, names=names, today=today), GLOSSES)
     log.info("reports for %s / %s written to %s", class_name, term, folder)
     return paths
 
@@ -148,11 +164,15 @@ def trends_page_context(ws: Workspace, class_name: str, *, today: str | None = N
     tr = compute_trends(ws, class_name)
     matches = []
     if match:
+        from ..writer_links import links_for
+
         for t in tr.terms:
-            matches += [(t["term"], cur, prev, score) for cur, prev, score in writer_matches(ws, t["class"], t["term"])]
+            rejected = links_for(ws.root, t["class"], t["term"])[1]
+            matches += [(t["term"], cur, prev, score) for cur, prev, score in writer_matches(ws, t["class"], t["term"])
+                        if (cur, prev) not in rejected]
     return build_trends_context(
         tr, today=today, overview_chart=chart_overview(tr, top=TREND_CHART_PATTERNS) if tr.patterns else "",
-        pattern_charts={p.key: chart_pattern(tr, p) for p in tr.patterns if not p.dismissed}, matches=matches)
+        pattern_charts={p.key: chart_pattern(tr, p) for p in tr.patterns}, matches=matches)
 
 
 def write_trends(ws: Workspace, class_name: str, out_dir: Path, *, today: str | None = None, match: bool = False,
@@ -179,10 +199,12 @@ def _make_folder(folder: Path) -> None:
 
 
 def make_reports(workspace: str | Path, class_name: str, term: str, out_dir: str | Path, *, top: int = 5,
-                 names: str = "pseudonyms", match: bool = False, today: str | None = None) -> ReportPaths:
+                 names: str = "pseudonyms", match: bool = False, today: str | None = None,
+                 names_on_sheets: bool = False) -> ReportPaths:
     """Open the workspace and :func:`write_reports` for one run (what ``hingeword report`` calls)."""
     with Workspace(workspace, read_only=True) as ws:
-        return write_reports(ws, class_name, term, Path(out_dir), top=top, names=names, match=match, today=today)
+        return write_reports(ws, class_name, term, Path(out_dir), top=top, names=names, match=match, today=today,
+                             names_on_sheets=names_on_sheets)
 
 
 @dataclass(frozen=True)
@@ -200,9 +222,25 @@ def make_trends(workspace: str | Path, class_name: str, *, out_dir: str | Path |
         tr = compute_trends(ws, class_name)
         lines = list(text_table(tr))
         if match:
+            from ..writer_links import links_for, propose
+
             lines.append(f"Proposed writer matches (name similarity ≥ {MATCH_THRESHOLD:.0f}; please check):")
-            found = [f"  {t['term']}: '{cur}' = '{prev}' ({score:.0f})"
-                     for t in tr.terms for cur, prev, score in writer_matches(ws, t["class"], t["term"])]
+            proposals, found = [], []
+            for t in tr.terms:
+                confirmed, rejected = links_for(workspace, t["class"], t["term"])
+                for cur, prev, score in writer_matches(ws, t["class"], t["term"]):
+                    if (cur, prev) in rejected:
+                        continue
+                    proposals.append((t["class"], t["term"], cur, prev, score))
+                    state = "confirmed" if confirmed.get(cur) == prev else "proposed"
+                    found.append(f"  {t['term']}: '{cur}' = '{prev}' ({score:.0f}, {state})")
             lines += found or ["  none"]
+            if proposals:
+                try:
+                    where = propose(workspace, proposals)
+                    lines.append(f"To confirm or reject a match, write yes or no in the 'decision' column of {where}; "
+                                 "a confirmed student keeps last term's code")
+                except HingewordError as exc:  # a read-only workspace: the proposals are still printed
+                    lines.append(f"(the proposals could not be saved for confirming: {exc})")
         path = write_trends(ws, class_name, Path(out_dir), match=match, today=today) if out_dir is not None else None
     return TrendsOutcome(tuple(lines), path)

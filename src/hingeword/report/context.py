@@ -8,6 +8,7 @@ plain dict out) so that tests can check what each template receives.
 from __future__ import annotations
 
 from .. import __version__
+from ..causes import native_words, reason_for_learners
 from ..extract import Attachment
 from ..record import NO_PREP, PatternRecord, Since, key_label, plain_label
 from ..view import RunView
@@ -17,23 +18,35 @@ from .text import SentenceView, answer_key, fmt_int, sentence_view
 SHEET_SENTENCES = 4
 
 
-def native_of(r: PatternRecord) -> tuple[str | None, str | None, str | None]:
-    """(suggested preposition, native pattern in words, suggestion) of a record; ``None`` where unknown."""
+def native_of(r: PatternRecord, classes=None) -> tuple[str | None, str | None, str | None]:
+    """(suggested preposition, native pattern in words, suggestion) of a record; ``None`` where unknown.
+
+    :param classes: object classes of the sentences at hand (a student's own): the native
+        pattern then names only the slots those sentences need ("arrive in a place …").
+    """
     a = r.advice
     sp = (a.suggested_preposition if a else "") or None
     native = (a.native_pattern if a else "") or (plain_label(r.governor, sp) if sp else None)
     suggestion = (a.suggestion if a else "") or (key_label(r.governor, sp) if sp else None)
+    if a is not None and a.by_object and classes is not None:
+        slots = dict(a.by_object)
+        pairs: list[tuple[str, str]] = []
+        for c in dict.fromkeys(c or "other" for c in classes):
+            k = c if c in slots else ("any other" if "any other" in slots else None)
+            if k is not None and (k, slots[k]) not in pairs:
+                pairs.append((k, slots[k]))
+        if pairs:
+            sp = pairs[0][1]
+            plain = [p for p in pairs if p[0] != "any other"] == []
+            native = native_words(r.governor, r.governor_pos, sp, [] if plain else pairs)
+            suggestion = " / ".join(key_label(r.governor, x) for x in dict.fromkeys(p[1] for p in pairs))
     return sp, native, suggestion
 
 
 def learner_reason(r: PatternRecord) -> str | None:
-    """The likely cause as a sentence for learners ("Carried over from a noun."); none if unclear."""
-    top = r.advice.cause if r.advice else None
-    label = (top.label if top else "").strip()
-    if not label or top.code == "unclear":
-        return None
-    label = label[0].upper() + label[1:]
-    return label if label[-1] in ".!?" else label + "."
+    """The likely cause as a sentence for learners, naming the related word ("By analogy with
+    'hear': we say 'hear something', but 'listen' is different."); none if unclear."""
+    return reason_for_learners(r.governor, r.preposition, r.advice.cause if r.advice else None)
 
 
 def common_context(view: RunView, today: str, title: str) -> dict:
@@ -120,7 +133,8 @@ def build_handout_context(view: RunView, *, top: int = 5, today: str, teacher: b
         examples, practice = pick_examples(instances.get(r.key, []))
         item = None
         if practice is not None:
-            ans = answer_key(practice, r.preposition, sp) if teacher else None
+            fit = r.advice.preposition_for(practice.object_class) if r.advice else sp
+            ans = answer_key(practice, r.preposition, fit or sp) if teacher else None
             item = {"segments": practice.segments, "answer": ans[0] if ans else None,
                     "answer_segments": ans[1] if ans else ()}
         patterns.append({
@@ -141,8 +155,26 @@ def build_handout_context(view: RunView, *, top: int = 5, today: str, teacher: b
             "more_count": max(0, len(flagged) - len(patterns))}
 
 
-def build_students_context(view: RunView, *, names: str = "pseudonyms", today: str) -> dict:
-    """Context of ``students.html``: one sheet per writer with their flagged sentences."""
+def build_key_context(view: RunView, *, today: str) -> dict:
+    """Context of ``key.html``, the teacher's private key: each pseudonym with the writer (in full,
+    never cut), their essays' ids and first language."""
+    essays: dict[str, list] = {}
+    for e in view.essays:
+        essays.setdefault(e.writer, []).append(e)
+    rows = [{"code": view.pseudonym(w), "writer": w, "essays": ", ".join(sorted(e.essay_id for e in es)),
+             "l1": ", ".join(sorted({e.l1 for e in es if e.l1}))} for w, es in essays.items()]
+    rows.sort(key=lambda r: (r["code"], r["writer"]))
+    return {**common_context(view, today, f"Private key: who is who in {view.class_name}, {view.term}"),
+            "rows": rows}
+
+
+def build_students_context(view: RunView, *, names: str = "pseudonyms", today: str,
+                           names_on_sheets: bool = False) -> dict:
+    """Context of ``students.html``: one sheet per writer with their flagged sentences.
+
+    :param names_on_sheets: print the student's name on the sheet's name line (the heading
+        keeps the pseudonym unless ``names="real"``).
+    """
     flagged = view.teachable
     rank = {r.key: i for i, r in enumerate(flagged)}
     rec = {r.key: r for r in flagged}
@@ -159,16 +191,22 @@ def build_students_context(view: RunView, *, names: str = "pseudonyms", today: s
         groups = []
         for key in sorted(mine.get(writer, {}), key=rank.__getitem__):
             r = rec[key]
-            _, native, suggestion = native_of(r)
             views = sorted((sentence_view(a) for a in mine[writer][key]),
                            key=lambda v: (v.essay_id, v.position, v.gov or (0, 0)))
+            _, native, suggestion = native_of(r, [v.object_class for v in views[:SHEET_SENTENCES]])
+            explanation = (r.advice.explanation if r.advice else "") or None
+            if r.advice is not None and r.advice.by_object and native != r.advice.native_pattern:
+                # the class's explanation names slots this student's sentences do not need
+                written = plain_label(r.governor, r.preposition)
+                explanation = f"We say '{native}', not '{'be ' if r.governor_pos == 'ADJ' else ''}{written}'."
             groups.append({"class_pattern": plain_label(r.governor, r.preposition), "no_preposition": key[2] == NO_PREP,
                            "native_pattern": native,
-                           "suggestion": suggestion, "explanation": (r.advice.explanation if r.advice else "") or None,
+                           "suggestion": suggestion, "explanation": explanation,
+                           "reason": learner_reason(r),
                            "sentences": [{"segments": v.segments} for v in views[:SHEET_SENTENCES]],
                            "more": max(0, len(views) - SHEET_SENTENCES)})
         label = view.writer_label(writer, names)
-        students.append({"label": label, "anchor": "", "essays": len(essays[writer]),
+        students.append({"label": label, "anchor": "", "name": writer if names_on_sheets else "", "essays": len(essays[writer]),
                          "words": fmt_int(sum(e.word_count for e in essays[writer])),
                          "patterns": groups, "nothing_flagged": not groups,
                          "progress": [{"class_pattern": plain_label(p.governor, p.preposition),

@@ -12,7 +12,7 @@ from markupsafe import Markup
 
 from .. import __version__
 from ..export import kwic
-from ..record import STATUS_GLOSSES, PatternRecord, Status, key_label, plain_label
+from ..record import STATUS_GLOSSES, STATUS_PLAIN, PatternRecord, Status, key_label, plain_label
 from ..score import describe_settings
 from ..view import RunView
 from .context import by_key, common_context, native_of, since_for_teachers
@@ -45,7 +45,7 @@ def _row(r: PatternRecord) -> dict:
     return {
         "pattern": key_label(r.governor, r.preposition), "pos": _POS.get(r.governor_pos, r.governor_pos),
         "flagged": r.flagged, "dismissed": r.dismissed,
-        "status": f"{r.status} (dismissed)" if r.dismissed else str(r.status),
+        "status": f"{STATUS_PLAIN[r.status]} (dismissed)" if r.dismissed else STATUS_PLAIN[r.status],
         "learner_count": fmt_int(r.learner_count), "learner_writers": fmt_int(r.learner_writers),
         "learner_governor_count": fmt_int(r.learner_governor_count),
         "learner_share": fmt_share(r.learner_share),
@@ -144,6 +144,14 @@ def evidence_words(r: PatternRecord) -> str | None:
             f"{fmt_int(r.pooled_writers)} writers (the flag rests on all of them)")
 
 
+def support_words(confidence: float) -> str:
+    """A cause's confidence (0-1) in words: how strongly the reference (or the writers' first
+    languages) supports it."""
+    if confidence != confidence:
+        return ""
+    return "strong support" if confidence >= 0.5 else "some support" if confidence >= 0.2 else "weak support"
+
+
 def strength_words(r: PatternRecord, confidence: float) -> str | None:
     """The rate ratio in words: "about 19 times as often as native writers would (at least 2.4 times, 95 % sure)"."""
     if not r.flagged or r.rate_ratio != r.rate_ratio:
@@ -161,7 +169,11 @@ def build_overview_context(view: RunView, *, names: str = "pseudonyms", today: s
     :func:`file_namer`.
     """
     records = view.records
+    used = [r for r in records if r.learner_count > 0]
     rename, label = file_namer(view) if names != "real" else (str, str)
+    # the native form a flagged pattern replaces, when the class used it less than natives do: one finding,
+    # said with the flag, not a second row beside it
+    by_key_rec = {r.key: r for r in records}
     instances = by_key(view.attachments)
     texts = {e.essay_id: e.text for e in view.essays}
     flagged = []
@@ -174,9 +186,19 @@ def build_overview_context(view: RunView, *, names: str = "pseudonyms", today: s
         advice = r.advice
         causes = [{"label": c.label or c.code or "?", "code": c.code,
                    "confidence": fmt_dec(c.confidence, 2) if c.confidence == c.confidence else "",
+                   "support": support_words(c.confidence),
                    "evidence": c.evidence} for c in (advice.causes if advice else ())]
         top = advice.cause if advice else None
         share = advice.suggestion_share if advice else None
+        native_side = []
+        for slot in dict.fromkeys([advice.suggested_preposition] + [s for _, s in advice.by_object]
+                                  if advice and advice.suggested_preposition else []):
+            other = by_key_rec.get((r.governor, r.governor_pos, slot))
+            if other is not None and other.status is Status.UNDER_USED:
+                native_side.append(f"the class wrote “{key_label(r.governor, slot)}” only "
+                                   f"{fmt_int(other.learner_count)} {'time' if other.learner_count == 1 else 'times'}"
+                                   f" ({fmt_share(other.learner_share)} of its uses of '{r.governor}', natives "
+                                   f"{fmt_share(other.reference_share)})")
         flagged.append({
             "number": n, "anchor": f"flag-{n}", "pattern": key_label(r.governor, r.preposition),
             "governor": r.governor,
@@ -184,6 +206,7 @@ def build_overview_context(view: RunView, *, names: str = "pseudonyms", today: s
             "native_pattern": native, "suggestion": suggestion,
             "suggestion_share": fmt_share(share) if share is not None else None,
             "cause_label": (top.label if top else "") or None, "causes": causes,
+            "native_side": native_side,
             "explanation": (advice.explanation if advice else "") or None,
             "since_last_term": since_for_teachers(r),
             "summary": (f"{fmt_int(r.learner_count)} times by {fmt_int(r.learner_writers)} writers; "
@@ -196,8 +219,8 @@ def build_overview_context(view: RunView, *, names: str = "pseudonyms", today: s
     dismissed = [{"pattern": key_label(r.governor, r.preposition),
                   "reason": r.decision.reason or "no reason given",
                   "date": r.decision.decided_on} for r in records if r.decision is not None]
-    statuses = [(str(s), sum(1 for r in records if r.status is s)) for s in Status]
-    glosses = [(str(s), STATUS_GLOSSES[s]) for s, c in zip(Status, (c for _, c in statuses)) if c]
+    statuses = [(STATUS_PLAIN[s], sum(1 for r in records if r.status is s)) for s in Status]
+    glosses = [(STATUS_PLAIN[s], STATUS_GLOSSES[s], str(s)) for s, c in zip(Status, (c for _, c in statuses)) if c]
     run = view.run
     thresholds = describe_settings(run.settings)
     if run.settings.get("term_start"):
@@ -205,6 +228,7 @@ def build_overview_context(view: RunView, *, names: str = "pseudonyms", today: s
     return {
         **common_context(view, today, f"Teacher overview: {view.class_name}, {view.term}"),
         "show_essay_ids": names == "real",
+        "example_pattern": flagged[0]["pattern"] if flagged else "discuss about",
         "run": {"created": _when(run.created), "model": run.model,
                 "model_version": run.model_version, "tool_version": run.tool_version,
                 "words": fmt_int(run.words), "essays_read": fmt_int(run.essays_read),
@@ -212,13 +236,14 @@ def build_overview_context(view: RunView, *, names: str = "pseudonyms", today: s
                 "writers": fmt_int(len({e.writer for e in view.essays}))},
         "reference": _reference(run.reference),
         "thresholds": thresholds,
-        "summary": {"patterns": len(records), "flagged": len(flagged), "dismissed": len(dismissed),
-                    "statuses": [(s, c) for s, c in statuses if c]},
+        "summary": {"patterns": len(used), "not_used": len(records) - len(used), "flagged": len(flagged),
+                    "dismissed": len(dismissed), "statuses": [(s, c) for s, c in statuses if c]},
         "status_glosses": glosses,
-        "rows": [_row(r) for r in records],
+        "rows": [_row(r) for r in used],
+        "unused_rows": [_row(r) for r in records if r.learner_count == 0],
         "flagged": flagged, "dismissed": dismissed,
         "skipped": [{"source": label(s.source), "reason": rename(s.reason)} for s in view.skipped],
-        "notes": [{"kind": n.kind, "message": rename(n.message)} for n in view.notes],
+        "notes": [{"kind": n.kind, "message": _note_text(n, rename)} for n in view.notes],
         "file_names_hidden": names != "real" and bool(view.skipped or view.notes),
         "spelling": spelling_groups(view),
         "kept_spellings": [str(k) for k in run.settings.get("keep_spelling") or ()],
@@ -258,7 +283,7 @@ def build_trends_context(tr, *, today: str, overview_chart: str = "", pattern_ch
     """Context of ``trends.html`` from a :class:`hingeword.trends.Trends`.
 
     :param overview_chart: inline SVG of the rates of the top patterns (not dismissed).
-    :param pattern_charts: inline SVG per pattern key; dismissed patterns get none.
+    :param pattern_charts: inline SVG per pattern key (dismissed patterns too: their history stays readable).
     :param matches: ``(term, current writer, previous writer, similarity)`` proposals.
     """
     charts = pattern_charts or {}
@@ -271,13 +296,21 @@ def build_trends_context(tr, *, today: str, overview_chart: str = "", pattern_ch
         "chart_labels": [p.label for p in shown],
         "overview_chart": _svg_markup(overview_chart),
         "patterns": [{"label": p.label, "dismissed": p.dismissed, "status": p.status,
-                      "chart": "" if p.dismissed else _svg_markup(charts.get(p.key, "")),
+                      "chart": _svg_markup(charts.get(p.key, "")),
                       "cells": [{"term": c.term, "rate": fmt_dec(c.rate, 1), "writers": c.writers,
                                  "flagged": c.flagged, "status": c.status} for c in p.cells]}
                      for p in tr.patterns],
         "matches": [{"term": t, "current": cur, "previous": prev, "score": f"{score:.0f}"}
                     for t, cur, prev, score in matches],
     }
+
+
+def _note_text(note, rename) -> str:
+    """A note in words without file names; a manifest problem keeps its row ("manifest.csv:line 3")."""
+    if note.kind == "manifest" and ":line " in note.message:
+        where, sep, rest = note.message.partition(": ")
+        return where + sep + rename(rest)
+    return rename(note.message)
 
 
 def _when(stamp) -> str:

@@ -4,9 +4,12 @@
 
 from __future__ import annotations
 
+import re
+import shlex
 from pathlib import Path
 
 import jinja2
+from markupsafe import Markup, escape
 
 from ..errors import HingewordError
 
@@ -19,8 +22,26 @@ def environment(template_dir: str | Path | None = None) -> jinja2.Environment:
             raise HingewordError(f"template folder not found: {template_dir}")
         loaders.append(jinja2.FileSystemLoader(str(template_dir)))
     loaders.append(jinja2.PackageLoader("hingeword", "templates"))
-    return jinja2.Environment(loader=jinja2.ChoiceLoader(loaders), autoescape=True, undefined=jinja2.StrictUndefined,
-                              trim_blocks=True, lstrip_blocks=True, keep_trailing_newline=True)
+    env = jinja2.Environment(loader=jinja2.ChoiceLoader(loaders), autoescape=True, undefined=jinja2.StrictUndefined,
+                             trim_blocks=True, lstrip_blocks=True, keep_trailing_newline=True)
+    env.filters["arg"] = lambda v: shlex.quote(str(v))  # a class or term name as one shell argument
+    env.filters["nobreak"] = nobreak
+    return env
+
+
+_HYPHENATED = re.compile(r"\S*-\S*")
+
+
+def nobreak(text) -> Markup:
+    """Escaped text whose hyphenated words ("evening-b2", "2026-spring") never wrap at the hyphen."""
+    out, pos = [], 0
+    text = str(text)
+    for m in _HYPHENATED.finditer(text):
+        out.append(escape(text[pos:m.start()]))
+        out.append(Markup('<span class="nowrap">') + escape(m.group(0)) + Markup("</span>"))
+        pos = m.end()
+    out.append(escape(text[pos:]))
+    return Markup("").join(out)
 
 
 def render(template: str, context: dict, *, template_dir: str | Path | None = None,

@@ -32,6 +32,7 @@ class SentenceView:
     gov: Span | None
     prep: Span | None
     position: int  # essay offset of the sentence, for a stable order
+    object_class: str = ""  # class of the pattern's object (the suggestion may depend on it)
 
     @property
     def segments(self) -> Segments:
@@ -103,7 +104,7 @@ def sentence_view(a: Attachment, max_chars: int = MAX_SENTENCE_CHARS) -> Sentenc
     text = re.sub(r"\s", " ", a.sentence)  # one character for one: offsets stay valid
     lo, hi = len(text) - len(text.lstrip()), len(text.rstrip())
     if not all(lo <= s < e <= hi for s, e in (gov, prep)):
-        return SentenceView(a.writer, a.essay_id, text[lo:hi], None, None, a.sentence_start)
+        return SentenceView(a.writer, a.essay_id, text[lo:hi], None, None, a.sentence_start, a.object_class)
     cut_lo, cut_hi = lo, hi
     if hi - lo > max_chars:
         k_lo, k_hi = min(gov[0], prep[0]), max(gov[1], prep[1])
@@ -124,7 +125,8 @@ def sentence_view(a: Attachment, max_chars: int = MAX_SENTENCE_CHARS) -> Sentenc
     suffix = " …" if cut_hi < hi else ""
     shift = len(prefix) - cut_lo
     return SentenceView(a.writer, a.essay_id, prefix + text[cut_lo:cut_hi] + suffix,
-                        (gov[0] + shift, gov[1] + shift), (prep[0] + shift, prep[1] + shift), a.sentence_start)
+                        (gov[0] + shift, gov[1] + shift), (prep[0] + shift, prep[1] + shift), a.sentence_start,
+                        a.object_class)
 
 
 def answer_key(view: SentenceView, learner_prep: str, suggested: str | None) -> tuple[str, Segments] | None:

@@ -382,15 +382,19 @@ async def download(request: Request) -> Response:
     what = request.query_params.get("what", "patterns")
     fmt = request.query_params.get("format", "csv")
     names = "real" if request.query_params.get("names") == "real" else "pseudonyms"
-    if what not in ("patterns", "concordance") or fmt not in FORMATS or term.run is None:
+    if what == "run":  # the run record and column meanings that lie beside a CSV export
+        fmt = "json"
+    if what not in ("patterns", "concordance", "run") or fmt not in FORMATS or term.run is None:
         raise HTTPException(404, "There is no such download for this term.")
 
     def build() -> bytes:
+        from ..export import side_file
+
         with tempfile.TemporaryDirectory(prefix="hingeword-export-") as tmp:
-            patterns = Path(tmp) / f"patterns.{fmt}"
+            patterns = Path(tmp) / f"patterns.{'csv' if what == 'run' else fmt}"
             conc = Path(tmp) / f"concordance.{fmt}" if what == "concordance" else None
             export_run(hw.workspace, entry.name, term.term, patterns, concordance=conc, names=names)
-            return (conc or patterns).read_bytes()
+            return side_file(patterns).read_bytes() if what == "run" else (conc or patterns).read_bytes()
 
     data = await run_in_threadpool(build)
     filename = f"{slugify(entry.name)}-{slugify(term.term)}-{what}.{fmt}"
