@@ -641,3 +641,14 @@ def test_report_titles_never_wrap_at_a_hyphen_and_pages_say_made_on(written):
         soup = soup_of(page)
         assert soup.h1.find("span", class_="nowrap") is not None or "-" not in soup.h1.get_text()
         assert f"made on {TODAY}" in soup.get_text(" ").lower()
+
+
+def test_report_overview_counts_read_in_the_singular():
+    """A pooled flag the class wrote once reads "1 use by 1 writer", never "1 uses by 1 writers"."""
+    from hingeword.report.overview import evidence_words
+
+    r = PatternRecord(governor="discuss", governor_pos="VERB", preposition="about", learner_count=1,
+                      learner_writers=1, flagged=True, evidence="workspace", pooled_count=12, pooled_writers=7,
+                      pooled_classes=3)
+    assert evidence_words(r) == ("In this class: 1 use by 1 writer; across 3 class-terms of this workspace: "
+                                 "12 uses by 7 writers (the flag rests on all of them)")

@@ -11,6 +11,7 @@ import re
 from markupsafe import Markup
 
 from .. import __version__
+from ..console import plural
 from ..export import kwic
 from ..record import STATUS_GLOSSES, STATUS_PLAIN, PatternRecord, Status, key_label, plain_label
 from ..score import describe_settings
@@ -138,10 +139,9 @@ def evidence_words(r: PatternRecord) -> str | None:
     if r.evidence != "workspace":
         return None
     classes = r.pooled_classes
-    return (f"In this class: {fmt_int(r.learner_count)} {'use' if r.learner_count == 1 else 'uses'} by "
-            f"{fmt_int(r.learner_writers)} {'writer' if r.learner_writers == 1 else 'writers'}; across "
-            f"{fmt_int(classes)} class-terms of this workspace: {fmt_int(r.pooled_count)} uses by "
-            f"{fmt_int(r.pooled_writers)} writers (the flag rests on all of them)")
+    return (f"In this class: {plural(r.learner_count, 'use')} by {plural(r.learner_writers, 'writer')}; across "
+            f"{plural(classes, 'class-term')} of this workspace: {plural(r.pooled_count, 'use')} by "
+            f"{plural(r.pooled_writers, 'writer')} (the flag rests on all of them)")
 
 
 def support_words(confidence: float) -> str:
@@ -209,7 +209,7 @@ def build_overview_context(view: RunView, *, names: str = "pseudonyms", today: s
             "native_side": native_side,
             "explanation": (advice.explanation if advice else "") or None,
             "since_last_term": since_for_teachers(r),
-            "summary": (f"{fmt_int(r.learner_count)} times by {fmt_int(r.learner_writers)} writers; "
+            "summary": (f"{plural(r.learner_count, 'time')} by {plural(r.learner_writers, 'writer')}; "
                         f"{fmt_share(r.learner_share)} of the class's uses of '{r.governor}' "
                         f"against {fmt_share(r.reference_share)} in the reference"),
             "evidence": evidence_words(r),
