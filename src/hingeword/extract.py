@@ -30,6 +30,7 @@ Repairs for learner errors that mislead the small pipeline (each documented in
 from __future__ import annotations
 
 import re
+from bisect import bisect_right
 from dataclasses import dataclass
 
 from .record import NO_PREP
@@ -158,16 +159,68 @@ def is_temporal(prep) -> bool:
     return False
 
 
-def _multiword_at(doc, i: int) -> tuple[str, ...] | None:
-    low = [t.lower_ for t in doc[i : i + 4]]
-    for seq in MULTIWORD:
-        if tuple(low[: len(seq)]) == seq:
-            return seq
-    return None
+#: Multiword prepositions by their first word, each list in :data:`MULTIWORD` order
+#: (longest first), so a lookup tries only the phrases that can start at a token.
+_MULTIWORD_BY_FIRST: dict[str, tuple[tuple[str, ...], ...]] = {}
+for _seq in MULTIWORD:
+    _MULTIWORD_BY_FIRST[_seq[0]] = _MULTIWORD_BY_FIRST.get(_seq[0], ()) + (_seq,)
+del _seq
+
+#: Labels of the tokens that can give an attachment (see :func:`extract_doc`); ``conj`` and
+#: ``advmod`` only on a preposition (ADP).
+_CANDIDATE_DEPS = ("prep", "agent", "prt", "dative", "dobj")
+_ADP_DEPS = ("conj", "advmod")
 
 
-def _make(gov, first, last, prep: str, relation: str, essay_id: str, writer: str) -> Attachment:
-    sent = gov.sent
+class _Ids:
+    """spaCy's integer ids of the strings the extractor compares, computed once (they are
+    hashes of the strings, the same in every pipeline)."""
+
+    def __init__(self) -> None:
+        import numpy as np
+        from spacy.attrs import DEP, LOWER, POS, SENT_START
+        from spacy.strings import get_string_id
+        from spacy.symbols import ADP
+
+        self.np = np
+        self.attrs = [LOWER, DEP, POS]
+        self.sent_start = SENT_START
+        self.first_words = np.array(sorted(get_string_id(w) for w in _MULTIWORD_BY_FIRST), dtype=np.uint64)
+        self.deps = np.array([get_string_id(d) for d in _CANDIDATE_DEPS], dtype=np.uint64)
+        self.adp_deps = np.array([get_string_id(d) for d in _ADP_DEPS], dtype=np.uint64)
+        self.adp = ADP
+
+
+_IDS: _Ids | None = None
+
+
+class _Sentences:
+    """Sentence start and text of a token, from the sentence starts the parser set (the
+    boundaries ``Token.sent`` uses), found once per document and only when needed."""
+
+    def __init__(self, doc, text: str | None):
+        self.doc, self.text = doc, text
+        self.starts = None
+
+    def of(self, token) -> tuple[str, int]:
+        ids = _IDS
+        if self.starts is None:
+            starts = ids.np.flatnonzero(self.doc.to_array(ids.sent_start).astype("int64") == 1)
+            self.starts = ids.np.union1d(starts, [0]).tolist()
+            self.ends = self.starts[1:] + [len(self.doc)]
+            self.cache: dict[int, tuple[str, int]] = {}
+            if self.text is None:
+                self.text = self.doc.text
+        k = bisect_right(self.starts, token.i) - 1
+        found = self.cache.get(k)
+        if found is None:
+            first, last = self.doc[self.starts[k]], self.doc[self.ends[k] - 1]
+            found = self.cache[k] = (self.text[first.idx:last.idx + len(last.text)], first.idx)
+        return found
+
+
+def _make(gov, first, last, prep: str, relation: str, essay_id: str, writer: str, sents: _Sentences) -> Attachment:
+    sentence, sentence_start = sents.of(gov)
     return Attachment(
         essay_id=essay_id,
         writer=writer,
@@ -176,8 +229,8 @@ def _make(gov, first, last, prep: str, relation: str, essay_id: str, writer: str
         governor_text=gov.text,
         preposition=prep,
         relation=relation,
-        sentence=sent.text,
-        sentence_start=sent.start_char,
+        sentence=sentence,
+        sentence_start=sentence_start,
         gov_start=gov.idx,
         gov_end=gov.idx + len(gov.text),
         prep_start=first.idx,
@@ -185,15 +238,38 @@ def _make(gov, first, last, prep: str, relation: str, essay_id: str, writer: str
     )
 
 
-def extract_doc(doc, essay_id: str = "", writer: str = "") -> list[Attachment]:
-    """All attachments of one parsed text, in text order (see module docstring)."""
+def extract_doc(doc, essay_id: str = "", writer: str = "", *, text: str | None = None) -> list[Attachment]:
+    """All attachments of one parsed text, in text order (see module docstring).
+
+    :param text: the text ``doc`` was made from (``doc.text``), when the caller has it:
+        spaCy builds ``doc.text`` anew from the tokens at each use.
+
+    Only tokens that can give an attachment are looked at: the candidates are found in
+    whole-document arrays of spaCy's integer ids (the first words of :data:`MULTIWORD`;
+    the labels ``prep``, ``agent``, ``prt``, ``dative``, ``dobj``, and ``conj``/``advmod`` on
+    a preposition), and each sentence's text is cut from the document once.
+    """
+    global _IDS
     out: list[Attachment] = []
+    if len(doc) == 0:
+        return out
+    if _IDS is None:
+        _IDS = _Ids()
+    np = _IDS.np
+    arr = doc.to_array(_IDS.attrs)
+    lower, deps, pos = arr[:, 0], arr[:, 1], arr[:, 2]
+    sents = _Sentences(doc, text)
     consumed: set[int] = set()
+    n = len(doc)
     # Multiword prepositions first: the inner words must not count on their own.
-    for i in range(len(doc)):
+    for i in np.flatnonzero(np.isin(lower, _IDS.first_words)).tolist():
         if i in consumed:
             continue
-        seq = _multiword_at(doc, i)
+        seq = None
+        for cand in _MULTIWORD_BY_FIRST[doc[i].lower_]:
+            if i + len(cand) <= n and all(doc[i + k].lower_ == w for k, w in enumerate(cand[1:], 1)):
+                seq = cand
+                break
         if seq is None:
             continue
         span = doc[i : i + len(seq)]
@@ -210,10 +286,12 @@ def extract_doc(doc, essay_id: str = "", writer: str = "") -> list[Attachment]:
         consumed |= inside
         gov = governor_of(heads[0])
         if gov is not None:
-            out.append(_make(gov, span[0], span[-1], " ".join(seq), "multiword", essay_id, writer))
-    for tok in doc:
-        if tok.i in consumed:
+            out.append(_make(gov, span[0], span[-1], " ".join(seq), "multiword", essay_id, writer, sents))
+    candidates = np.isin(deps, _IDS.deps) | (np.isin(deps, _IDS.adp_deps) & (pos == _IDS.adp))
+    for i in np.flatnonzero(candidates).tolist():
+        if i in consumed:
             continue
+        tok = doc[i]
         head = tok.head
         if head.i == tok.i:
             continue
@@ -238,11 +316,11 @@ def extract_doc(doc, essay_id: str = "", writer: str = "") -> list[Attachment]:
                 continue
             gov = governor_of(head)
             if gov is not None:
-                out.append(_make(gov, tok, tok, word, relation, essay_id, writer))
+                out.append(_make(gov, tok, tok, word, relation, essay_id, writer, sents))
         elif dep == "dobj" and repaired_pos(head) == "VERB":
             # the slot spans the object phrase up to its head ("the radio"), so a
             # suggested preposition can be inserted at its start
             first = tok.left_edge if tok.left_edge.i > head.i else tok
-            out.append(_make(head, first, tok, NO_PREP, "dobj", essay_id, writer))
+            out.append(_make(head, first, tok, NO_PREP, "dobj", essay_id, writer, sents))
     out.sort(key=lambda a: (a.gov_start, a.prep_start, a.preposition))
     return out
