@@ -150,16 +150,30 @@ def _with_zero_rows(counts: pd.DataFrame, reference, t: Thresholds) -> pd.DataFr
 
 
 def _dispersion(df: pd.DataFrame, attachments: Sequence) -> list[float]:
-    """Gries's DP over writers; a writer's size = their attachments (all slots). NaN when undefined."""
+    """Gries's DP over writers; a writer's size = their attachments (all slots). NaN when undefined.
+
+    Computed from the (pattern, writer) pairs that occur, so the work grows with the attachments,
+    not with patterns × writers: a writer without the pattern adds |0 − s_w| = s_w, and the shares
+    s_w add up to 1, so DP = ½ (Σ_{v_w > 0} (|v_w / f − s_w| − s_w) + 1), the same value as
+    :func:`measures.gries_dp` over all writers (up to rounding in the last digits).
+    """
     size: Counter = Counter(a.writer for a in attachments)
-    writers = sorted(size)
+    total = sum(size.values())
     per: dict[tuple, Counter] = defaultdict(Counter)
     for a in attachments:
         per[a.key][a.writer] += 1
     out = []
     for key in zip(df.governor, df.governor_pos, df.preposition):
-        dp = m.gries_dp([per[key][w] for w in writers], [size[w] for w in writers]) if writers and per.get(key) else None
-        out.append(float("nan") if dp is None else dp)
+        counts = per.get(key)
+        if not counts:
+            out.append(float("nan"))
+            continue
+        f = sum(counts.values())
+        spread = 1.0
+        for writer, v in counts.items():
+            share = size[writer] / total
+            spread += abs(v / f - share) - share
+        out.append(float(0.5 * spread))
     return out
 
 
