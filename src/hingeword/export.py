@@ -20,7 +20,7 @@ import pandas as pd
 
 from .errors import HingewordError
 from .extract import Attachment
-from .files import atomic_path, clean_text, neutralise_cell
+from .files import _C0, atomic_path, clean_text, neutralise_cell
 from .record import COLUMNS, CONTRACT, PatternRecord
 
 __all__ = ["COLUMNS", "CONTRACT", "KWIC_COLUMNS", "SUFFIXES", "ExportResult", "concordance_frame", "export_run",
@@ -51,13 +51,26 @@ def write_table(df: pd.DataFrame, path: str | Path) -> Path:
     for col in _BOOLEAN_COLUMNS:
         if col in out.columns:
             out[col] = out[col].map(lambda v: "true" if v is not pd.NA and v is not None and v == True else "false")  # noqa: E712
-    if suffix in (".csv", ".xlsx"):  # nested values (all causes with evidence) as a JSON column
-        for col in out.columns:
-            if out[col].map(lambda v: isinstance(v, (list, dict))).any():
-                out[col] = out[col].map(lambda v: json.dumps(v, ensure_ascii=False) if isinstance(v, (list, dict)) else v)
-    text_columns = [c for c in out.columns if out[c].map(lambda v: isinstance(v, str)).any()]
-    for col in text_columns:
-        out[col] = out[col].map(clean_text)
+    text_columns = []
+    for col in out.columns:
+        dtype = out[col].dtype
+        if pd.api.types.is_numeric_dtype(dtype):  # no text, no nested values
+            continue
+        if isinstance(dtype, pd.StringDtype):  # text only (or missing)
+            text_columns.append(col)
+            if out[col].str.contains(_C0.pattern, regex=True, na=False).any():
+                out[col] = out[col].map(clean_text, na_action="ignore")
+            continue
+        values = out[col].tolist()
+        if suffix in (".csv", ".xlsx") and any(isinstance(v, (list, dict)) for v in values):
+            # nested values (all causes with evidence) as a JSON column
+            values = [json.dumps(v, ensure_ascii=False) if isinstance(v, (list, dict)) else v for v in values]
+            out[col] = pd.Series(values, index=out.index, dtype=object)
+        texts = [v for v in values if isinstance(v, str)]
+        if texts:
+            text_columns.append(col)
+            if _C0.search("".join(texts)):
+                out[col] = out[col].map(clean_text)
     with atomic_path(path) as tmp:
         if suffix == ".csv":
             for col in text_columns:
@@ -73,24 +86,37 @@ def write_table(df: pd.DataFrame, path: str | Path) -> Path:
 
 
 def _write_xlsx(df: pd.DataFrame, path: Path, sheet: str) -> None:
-    """One sheet, header row first; strings are typed as text so "=..." is never a formula."""
-    from openpyxl import Workbook
+    """One sheet, header row first; strings are written as text, so "=..." is never a formula.
 
-    wb = Workbook()
-    ws = wb.active
-    ws.title = sheet
-    ws.append([str(c) for c in df.columns])
-    for row in df.itertuples(index=False, name=None):
-        ws.append([None if (v is None or (isinstance(v, float) and v != v) or v is pd.NA) else
-                   (v.item() if hasattr(v, "item") else v) for v in row])
-    for cells in ws.iter_rows(min_row=1):
-        for cell in cells:
-            if isinstance(cell.value, str):
-                cell.data_type = "s"
+    XlsxWriter rather than openpyxl: it writes cells without building an object for each
+    (a 1,000-essay export has half a million cells: 3.7 s with openpyxl, 1.8 s here).
+    """
+    import xlsxwriter
+
     # built in memory and written in one piece: a full disk is then one clean OSError, not a
-    # half-closed zip file that complains again when it is garbage-collected
+    # half-written zip file
     buf = io.BytesIO()
-    wb.save(buf)
+    wb = xlsxwriter.Workbook(buf, {"in_memory": True, "strings_to_formulas": False, "strings_to_urls": False,
+                                   "strings_to_numbers": False, "nan_inf_to_errors": True})
+    ws = wb.add_worksheet(sheet)
+    write_string, write_number, write_boolean = ws.write_string, ws.write_number, ws.write_boolean
+    for j, name in enumerate(df.columns):
+        write_string(0, j, str(name))
+    for i, row in enumerate(df.itertuples(index=False, name=None), start=1):
+        for j, v in enumerate(row):
+            if v is None or v is pd.NA or (isinstance(v, float) and v != v):
+                continue
+            if hasattr(v, "item"):  # a NumPy scalar
+                v = v.item()
+            if isinstance(v, str):
+                write_string(i, j, v)
+            elif isinstance(v, bool):
+                write_boolean(i, j, v)
+            elif isinstance(v, (int, float)):
+                write_number(i, j, v)
+            else:
+                write_string(i, j, str(v))
+    wb.close()
     path.write_bytes(buf.getvalue())
 
 
