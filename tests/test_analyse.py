@@ -59,7 +59,7 @@ def test_analyse_worker_processes_give_the_same_rows(nlp_and_info, tmp_path, mon
     monkeypatch.setattr(an, "MIN_WORDS_FOR_PROCESSES", 0)
     stats = ParseStats()
     ticks = []
-    two = dict(analyse(texts, nlp, info, cache_dir=tmp_path / "cache", processes=2, stats=stats,
+    two = dict(analyse(texts, nlp, info, cache_dir=tmp_path / "cache", processes=2, keep_parses=True, stats=stats,
                        progress=ticks.append))
     assert two == one
     assert (stats.parsed, stats.from_cache, sum(ticks)) == (40, 0, 40)
@@ -107,6 +107,16 @@ def test_analyse_rescan_in_a_new_process_does_not_import_spacy(tiny_essays, tiny
 
 
 @pytest.mark.slow
+def test_analyse_scan_keeps_parses_only_when_asked(tiny_essays, tiny_ref_path, tmp_path):
+    folder = tiny_essays()
+    _scan(folder, tmp_path / "ws", tiny_ref_path)
+    assert not list((tmp_path / "ws" / "cache").rglob("*.spacy"))
+    assert len(list((tmp_path / "ws" / "cache").rglob("*.json"))) == 4
+    _scan(folder, tmp_path / "ws2", tiny_ref_path, keep_parses=True)
+    assert len(list((tmp_path / "ws2" / "cache").rglob("*.spacy"))) == 4
+
+
+@pytest.mark.slow
 def test_analyse_changed_essay_invalidates_only_itself(tiny_essays, tiny_ref_path, tmp_path):
     _scan(tiny_essays(), tmp_path / "ws", tiny_ref_path)
     changed = dict(ESSAYS, **{"ben.txt": ESSAYS["ben.txt"].replace("climate change", "the school garden")})
@@ -120,7 +130,7 @@ def test_analyse_changed_essay_invalidates_only_itself(tiny_essays, tiny_ref_pat
 def test_analyse_new_extractor_reuses_the_parse(nlp_and_info, tmp_path):
     nlp, info = nlp_and_info
     texts = {text_key(t): t for t in TEXTS[:2]}
-    list(analyse(texts, nlp, info, cache_dir=tmp_path))
+    list(analyse(texts, nlp, info, cache_dir=tmp_path, keep_parses=True))
     for path in tmp_path.rglob("*.json"):  # as after an EXTRACTOR_VERSION bump: no extraction cached
         path.unlink()
     stats = ParseStats()

@@ -8,8 +8,8 @@ A scan needs of each essay only its attachments. :func:`analyse` returns them pe
   and the pipeline itself need not be (:func:`hingeword.parse.model_info` reads its
   name and version from the installed package);
 * otherwise the text is parsed (or its ``Doc`` read from the parse cache of
-  :mod:`hingeword.parse`, when only the extractor changed) and extracted **in the same
-  process**: with ``processes`` > 1, each worker process parses a chunk of texts, extracts
+  :mod:`hingeword.parse`, when only the extractor changed and the ``Doc`` was kept:
+  ``keep_parses``, ``scan --keep-parses``) and extracted **in the same process**: with ``processes`` > 1, each worker process parses a chunk of texts, extracts
   the attachments of each ``Doc`` as it comes out of the parser, writes both caches and
   sends back only the attachments, so the main process never deserialises a ``Doc``.
 
@@ -179,7 +179,7 @@ def analyse(
     *,
     cache_dir: str | Path | None = None,
     processes: int = 1,
-    keep_parses: bool = True,
+    keep_parses: bool = False,
     extract: Callable = extract_doc,
     stats: ParseStats | None = None,
     progress: Callable[[int], None] | None = None,
@@ -193,7 +193,8 @@ def analyse(
     :param processes: worker processes, used when the texts hold at least
         :data:`~hingeword.parse.MIN_WORDS_FOR_PROCESSES` words; with 1 everything runs here.
     :param keep_parses: also cache each ``Doc`` (the parse cache), so that a newer extractor
-        does not need to parse again.
+        does not need to parse again (costs about a tenth of the parsing time). A ``Doc`` cached
+        earlier is used either way.
     :param extract: the extractor (``extract(doc, essay_id, writer, text=...)``).
     :param weights: how many essays each key stands for (counted in ``stats`` and ``progress``).
     """

@@ -160,6 +160,7 @@ def scan(
     rules: list[Path] = typer.Option([], "--rules", help="Extra rules folder overlaying the bundled rules (repeatable)."),
     encoding: Optional[str] = typer.Option(None, "--encoding", help="Decode non-UTF-8 text files with this codec (e.g. cp1254) instead of guessing."),
     keep_spelling: list[str] = typer.Option([], "--keep-spelling", metavar="WORD", help="Count this word as written, never as a misspelling of another (repeatable; the overview lists every spelling grouping)."),
+    keep_parses: bool = typer.Option(False, "--keep-parses", help="Also cache each essay's parse, so that a newer hingeword whose extraction changed need not parse again (about 10% slower, more disk space)."),
     top: int = typer.Option(10, "--top", min=0, help="How many patterns to list."),
     report: bool = typer.Option(False, "--report", help="Also write the handouts, overview and student sheets."),
     out_dir: Path = typer.Option(Path("hingeword-reports"), "--out", help="Folder for reports (with --report)."),
@@ -178,7 +179,8 @@ def scan(
         result = run_scan(
             essays, class_name=class_name, term=term, workspace=workspace, manifest=manifest, model=model,
             processes=processes, references=reference, thresholds=thresholds, term_start=term_start, l1=l1,
-            rules_dirs=rules, encoding=encoding, keep_spelling=keep_spelling, progress=lambda done, total: bar.update(task, completed=done, total=total),
+            rules_dirs=rules, encoding=encoding, keep_spelling=keep_spelling, keep_parses=keep_parses,
+            progress=lambda done, total: bar.update(task, completed=done, total=total),
         )
     for line in scan_summary(result, top):
         out.print(line)

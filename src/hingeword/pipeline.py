@@ -89,7 +89,7 @@ def within_parser_limit(ingest: IngestResult, max_length: int) -> IngestResult:
 
 
 def _attachment_rows(ingest: IngestResult, folder, class_name: str, term: str, nlp, info: ModelInfo,
-                     model: str | None, cache_dir: Path, processes: int, stats: ParseStats,
+                     model: str | None, cache_dir: Path, processes: int, keep_parses: bool, stats: ParseStats,
                      progress: Callable[[int, int], None] | None) -> tuple[dict, IngestResult, ModelInfo]:
     """Attachment rows of every essay text (by ``Essay.sha256``): from the extraction cache, the
     rest parsed and extracted (:func:`hingeword.analyse.analyse`). The pipeline is loaded only
@@ -121,8 +121,8 @@ def _attachment_rows(ingest: IngestResult, folder, class_name: str, term: str, n
 
     todo = {k: t for k, t in texts.items() if k not in rows}
     if todo:
-        for key, found in analyse(todo, nlp, info, cache_dir=cache_dir, processes=processes, extract=extract_doc,
-                                  stats=stats, progress=tick, weights=essays_per_text):
+        for key, found in analyse(todo, nlp, info, cache_dir=cache_dir, processes=processes, keep_parses=keep_parses,
+                                  extract=extract_doc, stats=stats, progress=tick, weights=essays_per_text):
             rows[key] = found
     return rows, ingest, info
 
@@ -143,6 +143,7 @@ def scan(
     rules_dirs: Sequence[str | Path] = (),
     encoding: str | None = None,
     keep_spelling: Sequence[str] = (),
+    keep_parses: bool = False,
     progress: Callable[[int, int], None] | None = None,
     stage: Callable[[str], None] | None = None,
 ) -> ScanResult:
@@ -151,6 +152,9 @@ def scan(
     :param thresholds: the flag decision's thresholds (default :class:`~hingeword.score.Thresholds`).
     :param keep_spelling: forms never grouped under another word as misspellings (as written or
         their lemma); the overview lists every grouping and this undoes one.
+    :param keep_parses: also cache each essay's parse (spaCy ``Doc``), not only what extraction
+        found, so that a hingeword whose extraction changed need not parse again. Off by default:
+        writing the ``Doc``\ s costs about a tenth of the parsing time and takes disk space.
     :param progress: called as ``progress(done, total)`` (essays) while parsing and extracting;
         essays read from the cache count as done at once.
     :param stage: called with the name of each stage as it starts: ``"read"``, ``"parse"``
@@ -177,7 +181,7 @@ def scan(
         stats = ParseStats()
         say("parse")
         rows, ingest, info = _attachment_rows(ingest, folder, class_name, term, nlp, info, model, ws.cache_dir,
-                                              processes or default_processes(), stats, progress)
+                                              processes or default_processes(), keep_parses, stats, progress)
         attachments = [a for e in ingest.essays for a in to_attachments(rows[e.sha256], e.text, e.essay_id, e.writer)]
         say("score")
         keep = sorted({k.strip().lower() for k in keep_spelling if k.strip()})
