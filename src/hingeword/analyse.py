@@ -9,9 +9,12 @@ A scan needs of each essay only its attachments. :func:`analyse` returns them pe
   name and version from the installed package);
 * otherwise the text is parsed (or its ``Doc`` read from the parse cache of
   :mod:`hingeword.parse`, when only the extractor changed and the ``Doc`` was kept:
-  ``keep_parses``, ``scan --keep-parses``) and extracted **in the same process**: with ``processes`` > 1, each worker process parses a chunk of texts, extracts
-  the attachments of each ``Doc`` as it comes out of the parser, writes both caches and
-  sends back only the attachments, so the main process never deserialises a ``Doc``.
+  ``keep_parses``, ``scan --keep-parses``) and extracted **in the process that parses it**.
+  From :data:`~hingeword.parse.MIN_WORDS_FOR_PROCESSES` words on, ``processes`` worker
+  processes (one too) each parse a chunk of texts, extract the attachments of each ``Doc`` as
+  it comes out of the parser, write the caches and send back only the attachments: the
+  calling process never deserialises a ``Doc`` and is free for other work meanwhile (the
+  scan loads its rules then). Fewer words are parsed in the calling process.
 
 Rows are attachments without the essay's id and writer (the cache is keyed by text, and two
 essays may have the same text) and without the sentence, which is cut from the essay text by
@@ -191,7 +194,7 @@ def analyse(
     Call :func:`cached_rows` first for the texts already analysed.
 
     :param processes: worker processes, used when the texts hold at least
-        :data:`~hingeword.parse.MIN_WORDS_FOR_PROCESSES` words; with 1 everything runs here.
+        :data:`~hingeword.parse.MIN_WORDS_FOR_PROCESSES` words (fewer run here, in this process).
     :param keep_parses: also cache each ``Doc`` (the parse cache), so that a newer extractor
         does not need to parse again (costs about a tenth of the parsing time). A ``Doc`` cached
         earlier is used either way.
@@ -203,7 +206,9 @@ def analyse(
     items = list(texts.items())
     chunks = [items[i:i + CHUNK] for i in range(0, len(items), CHUNK)]
     words = sum(len(t.split()) for t in texts.values())
-    n_process = min(processes, len(chunks)) if processes > 1 and words >= MIN_WORDS_FOR_PROCESSES else 1
+    # worker processes (one too: the calling process meanwhile does its own work) when the
+    # texts are many enough to pay for starting them
+    n_process = min(max(1, processes), len(chunks)) if words >= MIN_WORDS_FOR_PROCESSES else 0
 
     def account(key: str, parsed: bool) -> None:
         n = weights.get(key, 1)
@@ -215,7 +220,7 @@ def analyse(
         if progress:
             progress(n)
 
-    if n_process == 1:
+    if n_process == 0:
         _setup(nlp, info, cache_dir, keep_parses, extract)
         for chunk in chunks:
             for key, rows, parsed in _analyse_chunk(chunk):
