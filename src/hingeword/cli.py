@@ -175,23 +175,37 @@ def scan(
     if not essays.exists():
         _fail(f"essay folder not found: {essays}")
     with _progress(quiet) as bar:
-        task = bar.add_task("parsing essays", total=None)
+        task = bar.add_task(SCAN_STAGES["read"], total=None)
         result = run_scan(
             essays, class_name=class_name, term=term, workspace=workspace, manifest=manifest, model=model,
             processes=processes, references=reference, thresholds=thresholds, term_start=term_start, l1=l1,
             rules_dirs=rules, encoding=encoding, keep_spelling=keep_spelling, keep_parses=keep_parses,
             progress=lambda done, total: bar.update(task, completed=done, total=total),
+            stage=lambda name: bar.update(task, description=SCAN_STAGES.get(name, name)),
         )
     for line in scan_summary(result, top):
         out.print(line)
     if report:
-        _reports(workspace, class_name, term, out_dir, top=5, names=names, match=False)
+        _reports(workspace, class_name, term, out_dir, top=5, names=names, match=False, quiet=quiet)
 
 
-def _reports(workspace: Path, class_name: str, term: str, out_dir: Path, *, top: int, names: Names, match: bool) -> None:
+#: What the scan's progress bar says in each stage of :func:`hingeword.pipeline.scan`.
+SCAN_STAGES = {"read": "reading essays", "parse": "parsing and extracting", "score": "scoring patterns",
+               "store": "storing the run"}
+
+
+def _steps(bar, task, what: str):
+    """A ``progress(step, done, total)`` callback that shows ``what: step`` on ``bar``."""
+    return lambda step, done, total: bar.update(task, description=f"{what}: {step}", completed=done, total=total)
+
+
+def _reports(workspace: Path, class_name: str, term: str, out_dir: Path, *, top: int, names: Names, match: bool,
+             quiet: bool = False) -> None:
     from .report import make_reports
 
-    paths = make_reports(workspace, class_name, term, out_dir, top=top, names=names.value, match=match)
+    with _progress(quiet) as bar:
+        paths = make_reports(workspace, class_name, term, out_dir, top=top, names=names.value, match=match,
+                             progress=_steps(bar, bar.add_task("report", total=None), "report"))
     out.print(f"reports written to {paths.folder}; open {paths.handout} first")
 
 
@@ -204,9 +218,10 @@ def report(
     top: int = typer.Option(5, "--top", min=1, help="Patterns on the class handout."),
     names: Names = NamesOpt,
     match_writers: bool = typer.Option(False, "--match-writers", help="Link writers to last term's by name similarity (see 'trends --match-writers')."),
+    quiet: bool = QuietOpt,
 ):
     """Write the class handout (with teacher copy), teacher overview, student sheets and patterns.csv."""
-    _reports(workspace, class_name, term, out_dir, top=top, names=names, match=match_writers)
+    _reports(workspace, class_name, term, out_dir, top=top, names=names, match=match_writers, quiet=quiet)
 
 
 @_command(app)
@@ -217,11 +232,14 @@ def export(
     output: Path = typer.Option(..., "-o", "--output", help="File to write: .csv, .xlsx or .json."),
     kwic_output: Optional[Path] = typer.Option(None, "--concordance", help="Also write every instance as a KWIC line to this .csv/.xlsx/.json file."),
     names: Names = NamesOpt,
+    quiet: bool = QuietOpt,
 ):
     """Export one row per pattern (CSV, XLSX or JSON by the file's suffix), with the teacher's decisions."""
     from .export import export_run
 
-    res = export_run(workspace, class_name, term, output, concordance=kwic_output, names=names.value)
+    with _progress(quiet) as bar:
+        res = export_run(workspace, class_name, term, output, concordance=kwic_output, names=names.value,
+                         progress=_steps(bar, bar.add_task("export", total=None), "export"))
     if res.concordance_path is not None:
         err.print(f"wrote {res.concordance_lines} concordance lines to {res.concordance_path}")
     err.print(f"wrote {res.patterns} patterns to {res.path}")

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import io
 import json
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -164,26 +164,36 @@ class ExportResult:
 
 
 def export_run(workspace: str | Path, class_name: str, term: str, output: str | Path, *,
-               concordance: str | Path | None = None, names: str = "pseudonyms") -> ExportResult:
+               concordance: str | Path | None = None, names: str = "pseudonyms",
+               progress: Callable[[str, int, int], None] | None = None) -> ExportResult:
     """Write one run's patterns (and optionally every instance as KWIC rows) by the files' suffixes.
 
     :param names: writer ids in the concordance: ``"pseudonyms"`` (default) or ``"real"``.
+    :param progress: called as ``progress(step, done, total)`` before each step (reading the
+        run, the patterns, the concordance) and once at the end.
     """
+    total = 2 if concordance is None else 3
+    step = progress or (lambda name, done, total: None)
     from .history import Workspace
     from .view import load_run_view
 
     for target in (output, concordance):
         if target is not None and Path(target).suffix.lower() not in SUFFIXES:
             raise HingewordError(f"cannot export to '{Path(target).name}': use a file ending in .csv, .xlsx or .json")
+    step("reading the run", 0, total)
     with Workspace(workspace, read_only=True) as ws:
         view = load_run_view(ws, class_name, term, progress=False)
+    step("patterns", 1, total)
     path = write_table(records_frame(view.records), output)
     if concordance is None:
+        step("written", total, total)
         return ExportResult(len(view.records), path)
+    step("concordance", 2, total)
     codes = None if names == "real" else dict(view.codes)
     texts = {e.essay_id: e.text for e in view.essays}
     kwic_df = concordance_frame(list(view.attachments), texts, codes)
     kpath = write_table(kwic_df, concordance)
+    step("written", total, total)
     return ExportResult(len(view.records), path, len(kwic_df), kpath)
 
 
