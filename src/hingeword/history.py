@@ -35,6 +35,7 @@ import datetime as _dt
 import functools
 import json
 import logging
+import operator
 import os
 import secrets
 import sqlite3
@@ -573,9 +574,10 @@ class Workspace:
                   json.dumps(dict(e.meta), sort_keys=True), e.word_count, e.text) for e in essays],
             )
             names = [f.name for f in fields(Attachment)]
+            values = operator.attrgetter(*names)
             c.executemany(
                 f"INSERT INTO attachments (run_id, {', '.join(names)}) VALUES ({', '.join('?' * (len(names) + 1))})",
-                [(run_id, *(getattr(a, n) for n in names)) for a in attachments],
+                [(run_id, *values(a)) for a in attachments],
             )
             self._insert_records(run_id, records)
         self.backup()
@@ -672,7 +674,7 @@ class Workspace:
             f"SELECT {', '.join(names)} FROM attachments WHERE {where} "
             "ORDER BY essay_id, gov_start, prep_start, preposition", args,
         ).fetchall()
-        return [Attachment(**dict(zip(names, r))) for r in rows]
+        return [Attachment(*r) for r in rows]  # columns in field order
 
     @_translated
     def records(self, run_id: int) -> list[PatternRecord]:
