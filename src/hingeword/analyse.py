@@ -23,12 +23,14 @@ its offsets: the extraction cache holds no running text.
 
 from __future__ import annotations
 
+import gc
 import json
 import logging
 import multiprocessing
 import signal
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from pathlib import Path
+from sys import intern
 
 from . import EXTRACTOR_VERSION
 from .errors import HingewordError
@@ -54,9 +56,18 @@ def to_rows(attachments: Iterable[Attachment]) -> list[Row]:
 
 
 def to_attachments(rows: Iterable[Row], text: str, essay_id: str, writer: str) -> list[Attachment]:
-    """The essay's attachments from its rows and text (see :data:`Row`)."""
-    return [Attachment(essay_id, writer, r[0], r[1], r[2], r[3], r[4], text[r[5]:r[6]], r[5], r[7], r[8], r[9],
-                       r[10]) for r in rows]
+    """The essay's attachments from its rows and text (see :data:`Row`); attachments of one
+    sentence share one string."""
+    sentences: dict[tuple[int, int], str] = {}
+    out = []
+    for r in rows:
+        sentence = sentences.get((r[5], r[6]))
+        if sentence is None:
+            sentence = sentences[(r[5], r[6])] = text[r[5]:r[6]]
+        # the words of a pattern recur across essays: one string each (sys.intern)
+        out.append(Attachment(essay_id, writer, intern(r[0]), intern(r[1]), r[2], intern(r[3]), intern(r[4]),
+                              sentence, r[5], r[7], r[8], r[9], r[10]))
+    return out
 
 
 def _valid(rows, text: str) -> bool:
@@ -228,12 +239,19 @@ def analyse(
                 yield key, rows
         return
     ctx = multiprocessing.get_context()
-    with ctx.Pool(n_process, initializer=_init_worker,
-                  initargs=(info.package, info, cache_dir, keep_parses, extract)) as pool:
-        for result in pool.imap_unordered(_analyse_chunk, chunks):
-            for key, rows, parsed in result:
-                account(key, parsed)
-                yield key, rows
+    # Objects that exist now (the pipeline, the essays, the caller's data) are left out of the
+    # cyclic garbage collector's passes while the workers run: a forked worker then never walks
+    # (and so never copies) the parent's memory, and the parent's own passes stay short.
+    gc.freeze()
+    try:
+        with ctx.Pool(n_process, initializer=_init_worker,
+                      initargs=(info.package, info, cache_dir, keep_parses, extract)) as pool:
+            for result in pool.imap_unordered(_analyse_chunk, chunks):
+                for key, rows, parsed in result:
+                    account(key, parsed)
+                    yield key, rows
+    finally:
+        gc.unfreeze()
 
 
 def cached_rows(texts: dict[str, str], info: ModelInfo, cache_dir: str | Path | None) -> dict[str, list[Row]]:

@@ -66,9 +66,10 @@ MULTIWORD: tuple[tuple[str, ...], ...] = tuple(
 )
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)
 class Attachment:
-    """One governor–preposition instance in one essay.
+    """One governor–preposition instance in one essay (slots: a class holds tens of
+    thousands of them).
 
     Character offsets index the essay text (``Doc.text``). For the ``-`` slot the
     preposition offsets span the direct object from its first word to its head

@@ -570,14 +570,14 @@ class Workspace:
             c.executemany("INSERT INTO notes VALUES (?, ?, ?)", [(run_id, k, m) for k, m in notes])
             c.executemany(
                 "INSERT INTO essays VALUES (?,?,?,?,?,?,?,?,?,?,?,?)",
-                [(run_id, e.essay_id, e.writer, e.sha256, e.source, e.encoding, e.l1, e.level, e.task,
-                  json.dumps(dict(e.meta), sort_keys=True), e.word_count, e.text) for e in essays],
+                ((run_id, e.essay_id, e.writer, e.sha256, e.source, e.encoding, e.l1, e.level, e.task,
+                  json.dumps(dict(e.meta), sort_keys=True), e.word_count, e.text) for e in essays),
             )
             names = [f.name for f in fields(Attachment)]
             values = operator.attrgetter(*names)
             c.executemany(
                 f"INSERT INTO attachments (run_id, {', '.join(names)}) VALUES ({', '.join('?' * (len(names) + 1))})",
-                [(run_id, *values(a)) for a in attachments],
+                ((run_id, *values(a)) for a in attachments),  # streamed: no second copy of every row
             )
             self._insert_records(run_id, records)
         self.backup()
