@@ -206,6 +206,7 @@ def scan(
                                               processes or default_processes(), keep_parses, stats, progress,
                                               before_parsing=rules_loaded.result)
         attachments = [a for e in ingest.essays for a in to_attachments(rows[e.sha256], e.text, e.essay_id, e.writer)]
+        del rows  # the attachments hold all of it
         rules = rules_loaded.result()
         say("score")
         keep = sorted({k.strip().lower() for k in keep_spelling if k.strip()})
