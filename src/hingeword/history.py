@@ -825,7 +825,9 @@ _VIEW_ONLY = ("dismissed", "dismissed_reason", "dismissed_on", "since_last_term"
 
 def _stored_row(r: PatternRecord) -> dict:
     """What a run stores of a record: everything but the decision and the comparison, made when read."""
-    row = r.with_(decision=None, comparison=None).to_row()
+    if r.decision is not None or r.comparison is not None:  # a scan's records have neither: no copy
+        r = r.with_(decision=None, comparison=None)
+    row = r.to_row()
     for k in _VIEW_ONLY:
         row.pop(k)
     return row
