@@ -17,6 +17,7 @@ Each essay is ``wNNNNN.txt``, one writer an essay. Nothing here goes into the re
 from __future__ import annotations
 
 import argparse
+import functools
 import os
 import random
 import re
@@ -104,6 +105,7 @@ def _pieces(doc: str, words: int = ESSAY_WORDS) -> Iterator[str]:
         yield " ".join(buf)
 
 
+@functools.lru_cache(maxsize=2)
 def native_essays(data_dir: Path = DATA_DIR) -> list[str] | None:
     native = Path(data_dir) / "native"
     needed = ("state-union.tar.gz", "masc.tar.gz", "movie-reviews.tar.gz")
