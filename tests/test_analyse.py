@@ -59,9 +59,11 @@ def test_analyse_worker_processes_give_the_same_rows(nlp_and_info, tmp_path, mon
     monkeypatch.setattr(an, "MIN_WORDS_FOR_PROCESSES", 0)
     stats = ParseStats()
     ticks = []
+    calls = []
     two = dict(analyse(texts, nlp, info, cache_dir=tmp_path / "cache", processes=2, keep_parses=True, stats=stats,
-                       progress=ticks.append))
+                       progress=ticks.append, meanwhile=lambda: calls.append(stats.parsed)))
     assert two == one
+    assert len(calls) == 1  # the caller's own work ran once, while the workers had theirs
     assert (stats.parsed, stats.from_cache, sum(ticks)) == (40, 0, 40)
     # the workers wrote both caches
     assert len(list((tmp_path / "cache").rglob("*.spacy"))) == 40

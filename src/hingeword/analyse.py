@@ -14,7 +14,7 @@ A scan needs of each essay only its attachments. :func:`analyse` returns them pe
   processes (one too) each parse a chunk of texts, extract the attachments of each ``Doc`` as
   it comes out of the parser, write the caches and send back only the attachments: the
   calling process never deserialises a ``Doc`` and is free for other work meanwhile (the
-  scan loads its rules then). Fewer words are parsed in the calling process.
+  scan loads its rules then: ``meanwhile``). Fewer words are parsed in the calling process.
 
 Rows are attachments without the essay's id and writer (the cache is keyed by text, and two
 essays may have the same text) and without the sentence, which is cut from the essay text by
@@ -198,6 +198,7 @@ def analyse(
     stats: ParseStats | None = None,
     progress: Callable[[int], None] | None = None,
     weights: dict[str, int] | None = None,
+    meanwhile: Callable[[], object] | None = None,
 ) -> Iterator[tuple[str, list[Row]]]:
     """Parse and extract ``texts`` (key → text, keys from :func:`hingeword.parse.text_key`) that are
     not in the extraction cache; yield ``(key, rows)`` as each text is done (not in order).
@@ -211,6 +212,8 @@ def analyse(
         earlier is used either way.
     :param extract: the extractor (``extract(doc, essay_id, writer, text=...)``).
     :param weights: how many essays each key stands for (counted in ``stats`` and ``progress``).
+    :param meanwhile: called once, as soon as the worker processes have their work (before the
+        parsing when it runs here): the caller's own work then runs while the workers parse.
     """
     stats = stats if stats is not None else ParseStats()
     weights = weights or {}
@@ -232,6 +235,8 @@ def analyse(
             progress(n)
 
     if n_process == 0:
+        if meanwhile:
+            meanwhile()
         _setup(nlp, info, cache_dir, keep_parses, extract)
         for chunk in chunks:
             for key, rows, parsed in _analyse_chunk(chunk):
@@ -246,7 +251,10 @@ def analyse(
     try:
         with ctx.Pool(n_process, initializer=_init_worker,
                       initargs=(info.package, info, cache_dir, keep_parses, extract)) as pool:
-            for result in pool.imap_unordered(_analyse_chunk, chunks):
+            results = pool.imap_unordered(_analyse_chunk, chunks)  # the workers start on them now
+            if meanwhile:
+                meanwhile()
+            for result in results:
                 for key, rows, parsed in result:
                     account(key, parsed)
                     yield key, rows

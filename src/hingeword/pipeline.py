@@ -9,7 +9,6 @@ from __future__ import annotations
 import datetime as _dt
 import logging
 from collections.abc import Callable, Sequence
-from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
@@ -89,13 +88,13 @@ def within_parser_limit(ingest: IngestResult, max_length: int) -> IngestResult:
                    near_duplicates=[n for n in ingest.near_duplicates if n.first not in ids and n.second not in ids])
 
 
-def _load_rules(dirs: list[Path]):
+def _load_rules(dirs: Sequence[str | Path]):
     """The rules, and wordfreq's word list read once (typo grouping looks words up in it)."""
     from wordfreq import zipf_frequency
 
     from .rules import load_rules
 
-    rules = load_rules(dirs)
+    rules = load_rules([Path(d) for d in dirs])
     zipf_frequency("the", "en")
     return rules
 
@@ -103,13 +102,13 @@ def _load_rules(dirs: list[Path]):
 def _attachment_rows(ingest: IngestResult, folder, class_name: str, term: str, nlp, info: ModelInfo,
                      model: str | None, cache_dir: Path, processes: int, keep_parses: bool, stats: ParseStats,
                      progress: Callable[[int, int], None] | None,
-                     before_parsing: Callable[[], object]) -> tuple[dict, IngestResult, ModelInfo]:
+                     meanwhile: Callable[[], object]) -> tuple[dict, IngestResult, ModelInfo]:
     """Attachment rows of every essay text (by ``Essay.sha256``): from the extraction cache, the
     rest parsed and extracted (:func:`hingeword.analyse.analyse`). The pipeline is loaded only
     when a text is not in the cache; then essays over its length limit are skipped.
 
-    :param before_parsing: called before any parsing starts (the scan waits there for its
-        background thread: worker processes are never forked while another thread runs).
+    :param meanwhile: called once: while the worker processes parse, or at once when nothing
+        is parsed in them.
     """
     texts = {e.sha256: e.text for e in ingest.essays}
     rows = cached_rows(texts, info, cache_dir)
@@ -137,11 +136,13 @@ def _attachment_rows(ingest: IngestResult, folder, class_name: str, term: str, n
             progress(done, total)
 
     todo = {k: t for k, t in texts.items() if k not in rows}
-    if todo:
-        before_parsing()
-        for key, found in analyse(todo, nlp, info, cache_dir=cache_dir, processes=processes, keep_parses=keep_parses,
-                                  extract=extract_doc, stats=stats, progress=tick, weights=essays_per_text):
-            rows[key] = found
+    if not todo:
+        meanwhile()
+        return rows, ingest, info
+    for key, found in analyse(todo, nlp, info, cache_dir=cache_dir, processes=processes, keep_parses=keep_parses,
+                              extract=extract_doc, stats=stats, progress=tick, weights=essays_per_text,
+                              meanwhile=meanwhile):
+        rows[key] = found
     return rows, ingest, info
 
 
@@ -186,11 +187,8 @@ def scan(
     thresholds = thresholds or Thresholds()
     say = stage or (lambda name: None)
     say("read")
-    check_rule_dirs([Path(d) for d in rules_dirs])
-    # the rules load in the background while the essays are read and the pipeline loads
-    background = ThreadPoolExecutor(max_workers=1, thread_name_prefix="hingeword-rules")
-    rules_loaded = background.submit(_load_rules, [Path(d) for d in rules_dirs])
-    background.shutdown(wait=False)
+    check_rule_dirs([Path(d) for d in rules_dirs])  # before any work; the rules load while the parser works
+    loaded: dict = {}
     ingest = read_essays(folder, manifest=manifest, encoding=encoding)
     _require_essays(ingest, folder, class_name, term)
     reference = ref_mod.load_many(references, workspace)
@@ -204,10 +202,10 @@ def scan(
         say("parse")
         rows, ingest, info = _attachment_rows(ingest, folder, class_name, term, nlp, info, model, ws.cache_dir,
                                               processes or default_processes(), keep_parses, stats, progress,
-                                              before_parsing=rules_loaded.result)
+                                              meanwhile=lambda: loaded.update(rules=_load_rules(rules_dirs)))
         attachments = [a for e in ingest.essays for a in to_attachments(rows[e.sha256], e.text, e.essay_id, e.writer)]
         del rows  # the attachments hold all of it
-        rules = rules_loaded.result()
+        rules = loaded["rules"]
         say("score")
         keep = sorted({k.strip().lower() for k in keep_spelling if k.strip()})
         attachments, groups = group_governors(attachments, reference.lemmas, words=rules.words, keep=keep)
