@@ -9,6 +9,8 @@ from __future__ import annotations
 
 import json
 import logging
+import os
+import signal
 import subprocess
 import sys
 import textwrap
@@ -19,6 +21,7 @@ from conftest import ESSAYS, TERM_START, TINY_SETTINGS, tiny_thresholds
 from hingeword import analyse as an
 from hingeword import parse
 from hingeword.analyse import ExtractionCache, analyse, cached_rows, to_attachments
+from hingeword.errors import ParseError
 from hingeword.extract import extract_doc
 from hingeword.forget import forget
 from hingeword.history import Workspace
@@ -68,6 +71,23 @@ def test_analyse_worker_processes_give_the_same_rows(nlp_and_info, tmp_path, mon
     # the workers wrote both caches
     assert len(list((tmp_path / "cache").rglob("*.spacy"))) == 40
     assert cached_rows(texts, info, tmp_path / "cache") == one
+
+
+def _dies_on_text_7(doc, *args, **kwargs):
+    if doc.text.startswith("Text 7:"):
+        os.kill(os.getpid(), signal.SIGKILL)  # as the system's out-of-memory killer would
+    return extract_doc(doc, *args, **kwargs)
+
+
+@pytest.mark.slow
+def test_analyse_killed_worker_is_a_one_line_error_not_a_hang(nlp_and_info, tmp_path, monkeypatch):
+    nlp, info = nlp_and_info
+    texts = {text_key(t): t for t in TEXTS}
+    monkeypatch.setattr(an, "MIN_WORDS_FOR_PROCESSES", 0)
+    with pytest.raises(ParseError, match="^a parser process stopped before its essays were parsed"):
+        dict(analyse(texts, nlp, info, cache_dir=tmp_path, processes=2, extract=_dies_on_text_7))
+    # what the other chunks found is cached; a scan again parses only the rest
+    assert 0 < len(cached_rows(texts, info, tmp_path)) < len(texts)
 
 
 @pytest.mark.slow

@@ -31,10 +31,12 @@ import multiprocessing
 import signal
 import sys
 from collections.abc import Callable, Iterable, Iterator, Sequence
+from concurrent.futures import ProcessPoolExecutor, as_completed
+from concurrent.futures.process import BrokenProcessPool
 from pathlib import Path
 
 from . import EXTRACTOR_VERSION
-from .errors import HingewordError
+from .errors import HingewordError, ParseError
 from .extract import Attachment, extract_doc
 from .files import atomic_path
 from .parse import MIN_WORDS_FOR_PROCESSES, ModelInfo, ParseCache, ParseStats
@@ -266,22 +268,28 @@ def analyse(
                 account(key, parsed)
                 yield key, rows
         return
-    ctx = multiprocessing.get_context()
     # Objects that exist now (the pipeline, the essays, the caller's data) are left out of the
     # cyclic garbage collector's passes while the workers run: a forked worker then never walks
     # (and so never copies) the parent's memory, and the parent's own passes stay short.
     gc.freeze()
+    # concurrent.futures rather than multiprocessing.Pool: a worker that dies (killed, out of
+    # memory) breaks the pool with an error here instead of leaving its chunk waiting forever
+    workers = ProcessPoolExecutor(n_process, mp_context=multiprocessing.get_context(), initializer=_init_worker,
+                                  initargs=(info.package, info, cache_dir, keep_parses, extract))
     try:
-        with ctx.Pool(n_process, initializer=_init_worker,
-                      initargs=(info.package, info, cache_dir, keep_parses, extract)) as pool:
-            results = pool.imap_unordered(_analyse_chunk, chunks)  # the workers start on them now
-            if meanwhile:
-                meanwhile()
-            for result in results:
-                for key, rows, parsed in result:
-                    account(key, parsed)
-                    yield key, rows
+        futures = [workers.submit(_analyse_chunk, chunk) for chunk in chunks]  # the workers start on them now
+        if meanwhile:
+            meanwhile()
+        for done in as_completed(futures):
+            for key, rows, parsed in done.result():
+                account(key, parsed)
+                yield key, rows
+    except BrokenProcessPool:
+        raise ParseError("a parser process stopped before its essays were parsed (out of memory, or killed); "
+                         "nothing was stored. Essays parsed so far are cached: scan again, with --processes 1 "
+                         "if memory is short") from None
     finally:
+        workers.shutdown(wait=False, cancel_futures=True)
         gc.unfreeze()
 
 
