@@ -193,7 +193,7 @@ def print_tables(title: str, tallies: dict[str, Tally], top: int, examples: bool
             pr, rc, f = prf(tp, g, p)
             print(f"{label if kind == 'all' else '':24} {kind:12} {g:>6} {p:>6} {tp:>6} {pr:>6.3f} {rc:>6.3f} {f:>6.3f}")
     t = tallies["governor + preposition"]
-    print(f"\nError types (governor + preposition; a pairing counts a miss and a false hit):")
+    print("\nError types (governor + preposition; a pairing counts a miss and a false hit):")
     for kind, n in t.errors.most_common(top):
         print(f"  {n:>5}  {kind}")
         if examples:

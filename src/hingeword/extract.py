@@ -38,9 +38,9 @@ from __future__ import annotations
 
 import functools
 import re
+from bisect import bisect_right
 from dataclasses import dataclass
 
-from spacy.lang.en.stop_words import STOP_WORDS
 
 from .record import NO_PREP
 
@@ -75,9 +75,10 @@ MULTIWORD: tuple[tuple[str, ...], ...] = tuple(
 )
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)
 class Attachment:
-    """One governor–preposition instance in one essay.
+    """One governor–preposition instance in one essay (slots: a class holds tens of
+    thousands of them).
 
     Character offsets index the essay text (``Doc.text``). For the ``-`` slot the
     preposition offsets span the direct object from its first word to its head
@@ -176,12 +177,64 @@ def _adverbial_object(obj) -> bool:
     return obj.pos_ == "ADV" or obj.lemma_.lower() in TIME_WORDS or obj.lower_ in TIME_WORDS
 
 
-def _multiword_at(doc, i: int) -> tuple[str, ...] | None:
-    low = [t.lower_ for t in doc[i : i + 4]]
-    for seq in MULTIWORD:
-        if tuple(low[: len(seq)]) == seq:
-            return seq
-    return None
+#: Multiword prepositions by their first word, each list in :data:`MULTIWORD` order
+#: (longest first), so a lookup tries only the phrases that can start at a token.
+_MULTIWORD_BY_FIRST: dict[str, tuple[tuple[str, ...], ...]] = {}
+for _seq in MULTIWORD:
+    _MULTIWORD_BY_FIRST[_seq[0]] = _MULTIWORD_BY_FIRST.get(_seq[0], ()) + (_seq,)
+del _seq
+
+#: Labels of the tokens that can give an attachment (see :func:`extract_doc`); ``conj`` and
+#: ``advmod`` only on a preposition (ADP).
+_CANDIDATE_DEPS = ("prep", "agent", "prt", "dative", "dobj")
+_ADP_DEPS = ("conj", "advmod")
+
+
+class _Ids:
+    """spaCy's integer ids of the strings the extractor compares, computed once (they are
+    hashes of the strings, the same in every pipeline)."""
+
+    def __init__(self) -> None:
+        import numpy as np
+        from spacy.attrs import DEP, LOWER, POS, SENT_START
+        from spacy.strings import get_string_id
+        from spacy.symbols import ADP
+
+        self.np = np
+        self.attrs = [LOWER, DEP, POS]
+        self.sent_start = SENT_START
+        self.first_words = np.array(sorted(get_string_id(w) for w in _MULTIWORD_BY_FIRST), dtype=np.uint64)
+        self.deps = np.array([get_string_id(d) for d in _CANDIDATE_DEPS], dtype=np.uint64)
+        self.adp_deps = np.array([get_string_id(d) for d in _ADP_DEPS], dtype=np.uint64)
+        self.adp = ADP
+
+
+_IDS: _Ids | None = None
+
+
+class _Sentences:
+    """Sentence start and text of a token, from the sentence starts the parser set (the
+    boundaries ``Token.sent`` uses), found once per document and only when needed."""
+
+    def __init__(self, doc, text: str | None):
+        self.doc, self.text = doc, text
+        self.starts = None
+
+    def of(self, token) -> tuple[str, int]:
+        ids = _IDS
+        if self.starts is None:
+            starts = ids.np.flatnonzero(self.doc.to_array(ids.sent_start).astype("int64") == 1)
+            self.starts = ids.np.union1d(starts, [0]).tolist()
+            self.ends = self.starts[1:] + [len(self.doc)]
+            self.cache: dict[int, tuple[str, int]] = {}
+            if self.text is None:
+                self.text = self.doc.text
+        k = bisect_right(self.starts, token.i) - 1
+        found = self.cache.get(k)
+        if found is None:
+            first, last = self.doc[self.starts[k]], self.doc[self.ends[k] - 1]
+            found = self.cache[k] = (self.text[first.idx:last.idx + len(last.text)], first.idx)
+        return found
 
 
 #: Coarse classes of a preposition's object (or of a direct object), with how a learner
@@ -275,8 +328,6 @@ def _object_of(prep):
 #: A line this short, without closing punctuation, followed by a line break and a capital is a
 #: title or heading the parser glued to the next sentence ("My first job\nWhen I arrived …").
 _TITLE_CHARS = 60
-#: A line ending in one of these ("I went there in\nAugust") is a wrapped sentence, not a title.
-_STOP_WORDS = STOP_WORDS
 _BLANK_LINE = re.compile(r"\n[ \t\r\f\v]*\n")
 
 
@@ -284,6 +335,10 @@ def _line_breaks(text: str) -> list[tuple[int, int]]:
     """(start, end) of each line break in a sentence's text that ends a piece of its own: a blank
     line, or the break after a short unpunctuated line (not ending in a function word) when the
     next line starts with a capital or a digit."""
+    # a line ending in a function word ("I went there in\nAugust") is a wrapped sentence, not a title;
+    # imported here, not at the top: a cached re-scan imports no spaCy
+    from spacy.lang.en.stop_words import STOP_WORDS
+
     out = [(m.start(), m.end()) for m in _BLANK_LINE.finditer(text)]
     line_start = 0
     for i, ch in enumerate(text):
@@ -292,7 +347,7 @@ def _line_breaks(text: str) -> list[tuple[int, int]]:
         line = text[line_start:i].strip()
         nxt = text[i + 1:].lstrip()
         last = line.rsplit(None, 1)[-1].lower() if line else ""
-        if (line and len(line) <= _TITLE_CHARS and line[-1] not in ".,;:-–(" and last not in _STOP_WORDS
+        if (line and len(line) <= _TITLE_CHARS and line[-1] not in ".,;:-–(" and last not in STOP_WORDS
                 and (nxt[:1].isupper() or nxt[:1].isdigit())):
             out.append((i, i + 1))
         line_start = i + 1
@@ -301,8 +356,12 @@ def _line_breaks(text: str) -> list[tuple[int, int]]:
 
 def sentence_span(sent, lo: int, hi: int) -> tuple[str, int]:
     """The sentence text holding the characters ``lo``..``hi`` of the doc, and its start offset: the
-    parser's sentence, less a title or paragraph it glued on (:func:`_line_breaks`)."""
-    text, start = sent.text, sent.start_char
+    parser's sentence (anything with ``text`` and ``start_char``), less a title or paragraph it
+    glued on (:func:`_line_breaks`)."""
+    return _cut_sentence(sent.text, sent.start_char, lo, hi)
+
+
+def _cut_sentence(text: str, start: int, lo: int, hi: int) -> tuple[str, int]:
     if "\n" not in text:
         return text, start
     a, b = lo - start, hi - start
@@ -315,10 +374,11 @@ def sentence_span(sent, lo: int, hi: int) -> tuple[str, int]:
     return text[cut_lo:cut_hi], start + cut_lo
 
 
-def _make(gov, first, last, prep: str, relation: str, essay_id: str, writer: str, obj=None) -> Attachment:
-    sent = gov.sent
+def _make(gov, first, last, prep: str, relation: str, essay_id: str, writer: str, sents: _Sentences,
+          obj=None) -> Attachment:
+    text, start = sents.of(gov)
     lo, hi = min(gov.idx, first.idx), max(gov.idx + len(gov.text), last.idx + len(last.text))
-    sentence, sentence_start = sentence_span(sent, lo, hi)
+    sentence, sentence_start = _cut_sentence(text, start, lo, hi)
     return Attachment(
         essay_id=essay_id,
         writer=writer,
@@ -337,15 +397,38 @@ def _make(gov, first, last, prep: str, relation: str, essay_id: str, writer: str
     )
 
 
-def extract_doc(doc, essay_id: str = "", writer: str = "") -> list[Attachment]:
-    """All attachments of one parsed text, in text order (see module docstring)."""
+def extract_doc(doc, essay_id: str = "", writer: str = "", *, text: str | None = None) -> list[Attachment]:
+    """All attachments of one parsed text, in text order (see module docstring).
+
+    :param text: the text ``doc`` was made from (``doc.text``), when the caller has it:
+        spaCy builds ``doc.text`` anew from the tokens at each use.
+
+    Only tokens that can give an attachment are looked at: the candidates are found in
+    whole-document arrays of spaCy's integer ids (the first words of :data:`MULTIWORD`;
+    the labels ``prep``, ``agent``, ``prt``, ``dative``, ``dobj``, and ``conj``/``advmod`` on
+    a preposition), and each sentence's text is cut from the document once.
+    """
+    global _IDS
     out: list[Attachment] = []
+    if len(doc) == 0:
+        return out
+    if _IDS is None:
+        _IDS = _Ids()
+    np = _IDS.np
+    arr = doc.to_array(_IDS.attrs)
+    lower, deps, pos = arr[:, 0], arr[:, 1], arr[:, 2]
+    sents = _Sentences(doc, text)
     consumed: set[int] = set()
+    n = len(doc)
     # Multiword prepositions first: the inner words must not count on their own.
-    for i in range(len(doc)):
+    for i in np.flatnonzero(np.isin(lower, _IDS.first_words)).tolist():
         if i in consumed:
             continue
-        seq = _multiword_at(doc, i)
+        seq = None
+        for cand in _MULTIWORD_BY_FIRST[doc[i].lower_]:
+            if i + len(cand) <= n and all(doc[i + k].lower_ == w for k, w in enumerate(cand[1:], 1)):
+                seq = cand
+                break
         if seq is None:
             continue
         span = doc[i : i + len(seq)]
@@ -362,11 +445,13 @@ def extract_doc(doc, essay_id: str = "", writer: str = "") -> list[Attachment]:
         consumed |= inside
         gov = governor_of(heads[0], span[0])
         if gov is not None:
-            out.append(_make(gov, span[0], span[-1], " ".join(seq), "multiword", essay_id, writer,
+            out.append(_make(gov, span[0], span[-1], " ".join(seq), "multiword", essay_id, writer, sents,
                              _object_of(span[-1])))
-    for tok in doc:
-        if tok.i in consumed:
+    candidates = np.isin(deps, _IDS.deps) | (np.isin(deps, _IDS.adp_deps) & (pos == _IDS.adp))
+    for i in np.flatnonzero(candidates).tolist():
+        if i in consumed:
             continue
+        tok = doc[i]
         head = tok.head
         if head.i == tok.i:
             continue
@@ -391,11 +476,11 @@ def extract_doc(doc, essay_id: str = "", writer: str = "") -> list[Attachment]:
                 continue
             gov = governor_of(head, tok)
             if gov is not None:
-                out.append(_make(gov, tok, tok, word, relation, essay_id, writer, _object_of(tok)))
+                out.append(_make(gov, tok, tok, word, relation, essay_id, writer, sents, _object_of(tok)))
         elif dep == "dobj" and repaired_pos(head) == "VERB" and not _adverbial_object(tok):
             # the slot spans the object phrase up to its head ("the radio"), so a
             # suggested preposition can be inserted at its start
             first = tok.left_edge if tok.left_edge.i > head.i else tok
-            out.append(_make(head, first, tok, NO_PREP, "dobj", essay_id, writer, tok))
+            out.append(_make(head, first, tok, NO_PREP, "dobj", essay_id, writer, sents, tok))
     out.sort(key=lambda a: (a.gov_start, a.prep_start, a.preposition))
     return out

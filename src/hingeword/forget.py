@@ -6,7 +6,7 @@ workspace it deletes, for the class (or the one term):
 * the stored runs: essays, instances, figures, skipped files, notes (one transaction;
   deleted rows are overwritten in the database file, see :meth:`Workspace.forget`);
   for a whole class also its decisions, their log and its links to other classes;
-* the cached parses of essays that no remaining run holds;
+* the cached parses and extracted attachments of essays that no remaining run holds;
 * the essays uploaded on the web page (``uploads/``) and the report files the web page
   wrote (``reports/``); the trends page of a class that keeps other terms is written again
   without the erased term.

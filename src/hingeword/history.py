@@ -35,6 +35,7 @@ import datetime as _dt
 import functools
 import json
 import logging
+import operator
 import os
 import secrets
 import sqlite3
@@ -576,13 +577,14 @@ class Workspace:
             c.executemany("INSERT INTO notes VALUES (?, ?, ?)", [(run_id, k, m) for k, m in notes])
             c.executemany(
                 "INSERT INTO essays VALUES (?,?,?,?,?,?,?,?,?,?,?,?)",
-                [(run_id, e.essay_id, e.writer, e.sha256, e.source, e.encoding, e.l1, e.level, e.task,
-                  json.dumps(dict(e.meta), sort_keys=True), e.word_count, e.text) for e in essays],
+                ((run_id, e.essay_id, e.writer, e.sha256, e.source, e.encoding, e.l1, e.level, e.task,
+                  json.dumps(dict(e.meta), sort_keys=True), e.word_count, e.text) for e in essays),
             )
             names = [f.name for f in fields(Attachment)]
+            values = operator.attrgetter(*names)
             c.executemany(
                 f"INSERT INTO attachments (run_id, {', '.join(names)}) VALUES ({', '.join('?' * (len(names) + 1))})",
-                [(run_id, *(getattr(a, n) for n in names)) for a in attachments],
+                ((run_id, *values(a)) for a in attachments),  # streamed: no second copy of every row
             )
             self._insert_records(run_id, records)
         self.backup()
@@ -679,7 +681,7 @@ class Workspace:
             f"SELECT {', '.join(names)} FROM attachments WHERE {where} "
             "ORDER BY essay_id, gov_start, prep_start, preposition", args,
         ).fetchall()
-        return [Attachment(**dict(zip(names, r))) for r in rows]
+        return [Attachment(*r) for r in rows]  # columns in field order
 
     @_translated
     def pattern_counts(self, run_ids: Sequence[int]) -> list[tuple[int, str, str, str, str, str, int]]:
@@ -862,7 +864,9 @@ _VIEW_ONLY = ("dismissed", "dismissed_reason", "dismissed_on", "since_last_term"
 
 def _stored_row(r: PatternRecord) -> dict:
     """What a run stores of a record: everything but the decision and the comparison, made when read."""
-    row = r.with_(decision=None, comparison=None).to_row()
+    if r.decision is not None or r.comparison is not None:  # a scan's records have neither: no copy
+        r = r.with_(decision=None, comparison=None)
+    row = r.to_row()
     for k in _VIEW_ONLY:
         row.pop(k)
     return row

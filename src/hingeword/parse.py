@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import hashlib
 import importlib.util
+import json
 import logging
 import os
 import re
@@ -98,6 +99,40 @@ def load_model(model: str | None = None):
     return _LOADED[name]
 
 
+def model_info(model: str | None = None) -> ModelInfo | None:
+    """What :func:`load_model` would load, from the pipeline's ``meta.json``, without loading it.
+
+    Enough for the cache keys and the run record when every essay is cached (importing
+    spaCy and loading a pipeline take seconds). ``None`` when the pipeline is not found or
+    its meta data do not show a parser: then :func:`load_model` says what is wrong.
+    """
+    candidates = [model] if model else available_models()
+    if not candidates:
+        return None
+    name = candidates[0]
+    if name in _LOADED:
+        return _LOADED[name][1]
+    path = Path(name)
+    if path.is_dir():
+        meta_path = path / "meta.json"
+    else:
+        try:
+            spec = importlib.util.find_spec(name)
+        except (ImportError, ValueError):
+            return None
+        if spec is None or not spec.submodule_search_locations:
+            return None
+        meta_path = Path(next(iter(spec.submodule_search_locations))) / "meta.json"
+    try:
+        meta = json.loads(meta_path.read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return None
+    if not isinstance(meta, dict) or "parser" not in (meta.get("pipeline") or ()):
+        return None
+    return ModelInfo(package=str(name), name=f"{meta.get('lang', 'xx')}_{meta.get('name', 'unknown')}",
+                     version=str(meta.get("version", "0")))
+
+
 def text_key(text: str) -> str:
     """The cache key of a text: sha256 of its UTF-8 bytes."""
     return hashlib.sha256(text.encode("utf-8")).hexdigest()
@@ -139,8 +174,9 @@ class ParseCache:
 
 
 def forget_cached(cache_dir: str | Path, keys) -> int:
-    """Remove the cached parses of the texts with these keys (:func:`text_key`), under every
-    model's folder; returns how many files were removed. Keys that are not sha256 hex are ignored."""
+    """Remove the cached parses and extractions (:class:`hingeword.analyse.ExtractionCache`) of the
+    texts with these keys (:func:`text_key`), under every model's folder; returns for how many
+    (text, model) pairs something was removed. Keys that are not sha256 hex are ignored."""
     root = Path(cache_dir)
     wanted = [k for k in keys if re.fullmatch(r"[0-9a-f]{64}", k)]
     if not root.is_dir() or not wanted:
@@ -148,11 +184,17 @@ def forget_cached(cache_dir: str | Path, keys) -> int:
     removed = 0
     for model_dir in sorted(p for p in root.iterdir() if p.is_dir() and not p.is_symlink()):
         for key in wanted:
-            try:
-                (model_dir / key[:2] / f"{key}.spacy").unlink()
-                removed += 1
-            except FileNotFoundError:
-                pass
+            folder = model_dir / key[:2]
+            if not folder.is_dir():
+                continue
+            found = False
+            for path in [folder / f"{key}.spacy", *folder.glob(f"{key}.x*.json")]:
+                try:
+                    path.unlink()
+                    found = True
+                except FileNotFoundError:
+                    pass
+            removed += found
     return removed
 
 

@@ -47,11 +47,14 @@ _VARIANTS = ((r"is(e|ed|es|ing|ation|ations)$", r"iz\1"), (r"ys(e|ed|es|ing)$", 
              (r"tre$", "ter"), (r"ll", "l"), (r"ae", "e"), (r"oe", "e"), (r"ence$", "ense"), (r"ogue$", "og"))
 
 
+_VARIANT_RES = tuple((re.compile(pattern), repl) for pattern, repl in _VARIANTS)
+
+
 def spelling_key(word: str) -> str:
     """``word`` with British spellings rewritten to American ones (see ``_VARIANTS``)."""
     out = word.lower()
-    for pattern, repl in _VARIANTS:
-        out = re.sub(pattern, repl, out)
+    for pattern, repl in _VARIANT_RES:
+        out = pattern.sub(repl, out)
     return out
 Key = tuple[str, str, str]
 

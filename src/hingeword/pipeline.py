@@ -13,11 +13,12 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 from . import EXTRACTOR_VERSION, __version__
+from .analyse import analyse, cached_rows, to_attachments
 from .errors import IngestError
 from .extract import extract_doc
 from .history import Workspace
 from .ingest import IngestResult, Skipped, read_essays
-from .parse import ModelInfo, ParseStats, default_processes, load_model, parse_texts
+from .parse import ModelInfo, ParseStats, default_processes, load_model, model_info
 from .patterns import GovernorMap, Tally, group_governors
 from .record import PatternRecord
 from .score import Pool, Thresholds
@@ -102,6 +103,64 @@ def pooled_tally(ws: Workspace, class_name: str, term: str, scope: Pool, tally: 
     return stored.merged(tally, as_class=class_name)
 
 
+def _load_rules(dirs: Sequence[str | Path]):
+    """The rules, and wordfreq's word list read once (typo grouping looks words up in it)."""
+    from wordfreq import zipf_frequency
+
+    from .rules import load_rules
+
+    rules = load_rules([Path(d) for d in dirs])
+    zipf_frequency("the", "en")
+    return rules
+
+
+def _attachment_rows(ingest: IngestResult, folder, class_name: str, term: str, nlp, info: ModelInfo,
+                     model: str | None, cache_dir: Path, processes: int, keep_parses: bool, stats: ParseStats,
+                     progress: Callable[[int, int], None] | None,
+                     meanwhile: Callable[[], object]) -> tuple[dict, IngestResult, ModelInfo]:
+    """Attachment rows of every essay text (by ``Essay.sha256``): from the extraction cache, the
+    rest parsed and extracted (:func:`hingeword.analyse.analyse`). The pipeline is loaded only
+    when a text is not in the cache; then essays over its length limit are skipped.
+
+    :param meanwhile: called once: while the worker processes parse, or at once when nothing
+        is parsed in them.
+    """
+    texts = {e.sha256: e.text for e in ingest.essays}
+    rows = cached_rows(texts, info, cache_dir)
+    if len(rows) < len(texts) and nlp is None:
+        nlp, loaded = load_model(model)
+        if loaded != info:  # the package's meta data and the loaded pipeline disagree: trust the pipeline
+            info, rows = loaded, cached_rows(texts, loaded, cache_dir)
+        ingest = within_parser_limit(ingest, nlp.max_length)
+        _require_essays(ingest, folder, class_name, term)
+        texts = {e.sha256: e.text for e in ingest.essays}
+    essays_per_text: dict[str, int] = {}
+    for e in ingest.essays:
+        essays_per_text[e.sha256] = essays_per_text.get(e.sha256, 0) + 1
+    total = len(ingest.essays)
+    done = sum(essays_per_text[k] for k in rows)
+    stats.from_cache += done
+    stats.words += sum(len(texts[k].split()) * essays_per_text[k] for k in rows)
+    if progress:
+        progress(done, total)
+
+    def tick(n: int) -> None:
+        nonlocal done
+        done += n
+        if progress:
+            progress(done, total)
+
+    todo = {k: t for k, t in texts.items() if k not in rows}
+    if not todo:
+        meanwhile()
+        return rows, ingest, info
+    for key, found in analyse(todo, nlp, info, cache_dir=cache_dir, processes=processes, keep_parses=keep_parses,
+                              extract=extract_doc, stats=stats, progress=tick, weights=essays_per_text,
+                              meanwhile=meanwhile):
+        rows[key] = found
+    return rows, ingest, info
+
+
 def scan(
     folder: str | Path,
     *,
@@ -118,6 +177,7 @@ def scan(
     rules_dirs: Sequence[str | Path] = (),
     encoding: str | None = None,
     keep_spelling: Sequence[str] = (),
+    keep_parses: bool = False,
     progress: Callable[[int, int], None] | None = None,
     stage: Callable[[str], None] | None = None,
 ) -> ScanResult:
@@ -126,44 +186,42 @@ def scan(
     :param thresholds: the flag decision's thresholds (default :class:`~hingeword.score.Thresholds`).
     :param keep_spelling: forms never grouped under another word as misspellings (as written or
         their lemma); the overview lists every grouping and this undoes one.
-    :param progress: called as ``progress(done, total)`` while parsing.
+    :param keep_parses: also cache each essay's parse (spaCy ``Doc``), not only what extraction
+        found, so that a hingeword whose extraction changed need not parse again. Off by default:
+        writing the ``Doc``\ s costs about a tenth of the parsing time and takes disk space.
+    :param progress: called as ``progress(done, total)`` (essays) while parsing and extracting;
+        essays read from the cache count as done at once.
     :param stage: called with the name of each stage as it starts: ``"read"``, ``"parse"``
         (parsing and extraction, essay by essay), ``"score"``, ``"store"``.
     """
     from . import reference as ref_mod
     from .causes import categorise, l1_tallies, object_tallies
-    from .rules import load_rules
+    from .rules import check_rule_dirs
     from .score import score_patterns
 
     thresholds = thresholds or Thresholds()
     say = stage or (lambda name: None)
     say("read")
+    check_rule_dirs([Path(d) for d in rules_dirs])  # before any work; the rules load while the parser works
+    loaded: dict = {}
     ingest = read_essays(folder, manifest=manifest, encoding=encoding)
     _require_essays(ingest, folder, class_name, term)
-    rules = load_rules([Path(d) for d in rules_dirs])
     reference = ref_mod.load_many(references, workspace)
-    nlp, info = load_model(model)
-    ingest = within_parser_limit(ingest, nlp.max_length)
-    _require_essays(ingest, folder, class_name, term)
+    info = model_info(model)  # name and version from the installed package; the pipeline loads only if needed
+    nlp = None
+    if info is None:  # not found this way: loading it says what is wrong, before the workspace is touched
+        nlp, info = load_model(model)
     ws = Workspace(workspace)
     try:
         class_name = ws.canonical_class(class_name)  # "Evening-B2" joins the stored "evening-b2"
         stats = ParseStats()
-        texts = [e.text for e in ingest.essays]
-        done = 0
-
-        def tick(n: int) -> None:
-            nonlocal done
-            done += n
-            if progress:
-                progress(done, len(texts))
-
-        attachments = []
         say("parse")
-        docs = parse_texts(texts, nlp, info, cache_dir=ws.cache_dir, processes=processes or default_processes(),
-                           stats=stats, progress=tick)
-        for essay, doc in zip(ingest.essays, docs):
-            attachments.extend(extract_doc(doc, essay.essay_id, essay.writer))
+        rows, ingest, info = _attachment_rows(ingest, folder, class_name, term, nlp, info, model, ws.cache_dir,
+                                              processes or default_processes(), keep_parses, stats, progress,
+                                              meanwhile=lambda: loaded.update(rules=_load_rules(rules_dirs)))
+        attachments = [a for e in ingest.essays for a in to_attachments(rows[e.sha256], e.text, e.essay_id, e.writer)]
+        del rows  # the attachments hold all of it
+        rules = loaded["rules"]
         say("score")
         keep = sorted({k.strip().lower() for k in keep_spelling if k.strip()})
         attachments, groups = group_governors(attachments, reference.lemmas, words=rules.words, keep=keep)

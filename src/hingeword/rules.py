@@ -111,6 +111,13 @@ def bundled_rules_dir() -> Path:
     return Path(__file__).resolve().parents[2] / "rules"
 
 
+def check_rule_dirs(extra_dirs: Sequence[Path]) -> None:
+    """Raise :class:`RulesError` for a teacher's rules folder that does not exist (before any work)."""
+    for folder in map(Path, extra_dirs):
+        if not folder.is_dir():
+            raise RulesError(f"rules folder not found: {folder}")
+
+
 def load_rules(extra_dirs: Sequence[Path] = ()) -> Rules:
     """Load the bundled rules, then overlay each folder of ``extra_dirs`` in order.
 

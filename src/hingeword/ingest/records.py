@@ -5,6 +5,7 @@ found in the folder) and ``_Info`` (writer and metadata) with the ``_essay`` fac
 
 from __future__ import annotations
 
+import functools
 import hashlib
 import re
 from dataclasses import dataclass, field
@@ -33,9 +34,9 @@ class Essay:
     task: str | None = None
     meta: tuple[tuple[str, str], ...] = ()
 
-    @property
+    @functools.cached_property
     def word_count(self) -> int:
-        """Number of words: runs of letters, with inner apostrophes or hyphens."""
+        """Number of words: runs of letters, with inner apostrophes or hyphens (counted once)."""
         return sum(1 for _ in _WORD.finditer(self.text))
 
 

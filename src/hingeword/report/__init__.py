@@ -34,6 +34,7 @@ from __future__ import annotations
 
 import datetime as _dt
 import logging
+from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -75,7 +76,7 @@ __all__ = [
     "build_trends_context", "environment", "fmt_dec", "fmt_int", "fmt_ratio", "fmt_share",
     "learner_reason", "load_run_view", "pick_examples", "render", "segments",
     "sentence_view", "slugify", "write_reports", "write_trends", "make_reports", "make_trends", "TrendsOutcome",
-    "PAGES", "report_pages", "trends_page_context",
+    "PAGES", "REPORT_STEPS", "report_pages", "trends_page_context",
 ]
 
 log = logging.getLogger("hingeword")
@@ -119,10 +120,15 @@ def report_pages(data: RunView, *, top: int = 5, names: str = "pseudonyms",
     }
 
 
+#: What a report's progress calls name, in order (see :func:`write_reports`).
+REPORT_STEPS = ("reading the run", "handout", "teacher copy", "overview", "student sheets", "patterns.csv and key")
+
+
 def write_reports(ws: Workspace, class_name: str, term: str, out_dir: Path, *, top: int = 5,
                   names: str = "pseudonyms", today: str | None = None,
                   template_dir: Path | None = None, match: bool = False,
-                  names_on_sheets: bool = False) -> ReportPaths:
+                  names_on_sheets: bool = False,
+                  progress: Callable[[str, int, int], None] | None = None) -> ReportPaths:
     """Write the handouts, overview, student sheets, ``patterns.csv`` (with ``patterns.run.json``)
     and the private ``key.html`` (pseudonym → student; for the teacher only, linked from no page) of one run.
 
@@ -134,11 +140,16 @@ def write_reports(ws: Workspace, class_name: str, term: str, out_dir: Path, *, t
     :param template_dir: a folder of templates that replace the bundled ones by name.
     :param match: link writers to last term's by name similarity for the progress lines.
     :param names_on_sheets: print each student's name on their sheet.
+    :param progress: called as ``progress(step, done, total)`` before each of :data:`REPORT_STEPS`
+        and once at the end.
     :raises HingewordError: unknown ``names``, no such run, or a broken template.
     """
     if names not in NAMES:
         raise HingewordError(f"names must be 'pseudonyms' or 'real', not '{names}'")
+    step = progress or (lambda name, done, total: None)
+    total = len(REPORT_STEPS)
     today = today or _dt.date.today().isoformat()
+    step(REPORT_STEPS[0], 0, total)
     data = load_run_view(ws, class_name, term, match=match)
     env = environment(template_dir)
     folder = Path(out_dir) / slugify(class_name) / slugify(term)
@@ -147,10 +158,13 @@ def write_reports(ws: Workspace, class_name: str, term: str, out_dir: Path, *, t
                         overview=folder / "overview.html", students=folder / "students.html",
                         patterns_csv=folder / "patterns.csv", key=folder / "key.html")
     pages = report_pages(data, top=top, names=names, today=today, names_on_sheets=names_on_sheets)
-    for page, (template, context) in pages.items():
+    for done, (page, (template, context)) in enumerate(pages.items(), start=1):
+        step(REPORT_STEPS[done], done, total)
         write_text(getattr(paths, page), render(template, context, env=env))
+    step(REPORT_STEPS[-1], total - 1, total)
     write_text(paths.key, render("key.html", build_key_context(data, today=today), env=env))
     write_table(records_frame(data.records), paths.patterns_csv, run_record(data, names=names, today=today), GLOSSES)
+    step("written", total, total)
     log.info("reports for %s / %s written to %s", class_name, term, folder)
     return paths
 
@@ -200,11 +214,12 @@ def _make_folder(folder: Path) -> None:
 
 def make_reports(workspace: str | Path, class_name: str, term: str, out_dir: str | Path, *, top: int = 5,
                  names: str = "pseudonyms", match: bool = False, today: str | None = None,
-                 names_on_sheets: bool = False) -> ReportPaths:
+                 names_on_sheets: bool = False,
+                 progress: Callable[[str, int, int], None] | None = None) -> ReportPaths:
     """Open the workspace and :func:`write_reports` for one run (what ``hingeword report`` calls)."""
     with Workspace(workspace, read_only=True) as ws:
         return write_reports(ws, class_name, term, Path(out_dir), top=top, names=names, match=match, today=today,
-                             names_on_sheets=names_on_sheets)
+                             names_on_sheets=names_on_sheets, progress=progress)
 
 
 @dataclass(frozen=True)
