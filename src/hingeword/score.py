@@ -78,6 +78,7 @@ JFLEG); the settings tried and the figures are in ``docs/detection.md``.
 
 from __future__ import annotations
 
+import functools
 import math
 from collections import Counter
 from collections.abc import Mapping, Sequence
@@ -298,8 +299,14 @@ def _general_factor(tally: Tally, key, n1: int, a: int, native_rate: float, ex: 
     uses = max(uses, 0)
     if uses == 0:
         return 1.0
-    low = float(chi2.ppf(1.0 - K_LEVEL, 2 * uses)) / 2.0  # exact Poisson lower bound (Garwood 1936 [mem])
-    return max(1.0, low / (base * native_rate))
+    return max(1.0, _poisson_low(uses) / (base * native_rate))
+
+
+@functools.lru_cache(maxsize=4096)
+def _poisson_low(uses: int) -> float:
+    """The exact one-sided lower Poisson bound of ``uses`` at :data:`K_LEVEL` (Garwood 1936 [mem]);
+    remembered, as a run asks for the same few counts thousands of times."""
+    return float(chi2.ppf(1.0 - K_LEVEL, 2 * uses)) / 2.0
 
 
 def _evidence(tally: Tally, key, native_rate: float, ex: _Excluded = _NONE) -> Evidence:
