@@ -282,3 +282,44 @@ def test_score_pooled_flag_needs_the_pattern_to_recur_in_other_classes():
                              + [(8, "third", "t1", "discuss", "VERB", "-", 3)], classes=2)
     pooled = row(scored(here, ref, pooled=thrice.merged(Tally.from_attachments(here), as_class="mine")), "discuss", "about")
     assert pooled.flagged and pooled.evidence == "workspace" and pooled.pooled_classes == 2
+
+
+def _make_reference() -> Reference:
+    """Natives write "make" + object 700 times and "make in" 20 times (2.8 %, less than their 3.8 % of "in"
+    with verbs in general, so not a form they favour); "depend of" never (invented counts)."""
+    return reference({("make", "VERB", "-"): 700, ("make", "VERB", "in"): 20})
+
+
+def _others(classes: int, rows: list[tuple[str, str, int]]) -> Tally:
+    """``classes`` other class-terms, each with four writers writing ``rows`` (governor, slot, uses) apiece."""
+    return Tally.from_rows([(100 + c, f"other{c}", f"s{w}", g, "VERB", p, n)
+                            for c in range(classes) for w in range(4) for g, p, n in rows], classes=classes)
+
+
+def test_score_class_flag_not_confirmed_by_the_workspace_is_not_flagged():
+    """Three uses of "make in" by two writers in a class that writes "make" eleven times pass the class's own
+    test at 5 %, but not at 5 % / 8 class-terms, and the seven other classes write "make" 112 times without
+    "in": a chance finding of one class among eight, not flagged."""
+    ref = _make_reference()
+    here = [att("ana", "make", "in"), att("ana", "make", "in"), att("ben", "make", "in")] + \
+           [att(w, "make", "-") for w in ("ana", "ben", "cy", "dee", "eve", "fay", "gus", "hal")]
+    alone = row(scored(here, ref), "make", "in")
+    assert alone.flagged, (alone.status, alone.fdr_q)
+    assert 0.05 / 8 < alone.fdr_q <= 0.05
+    pool = _others(7, [("make", "-", 4)]).merged(Tally.from_attachments(here), as_class="mine")
+    pooled = row(scored(here, ref, pooled=pool), "make", "in")
+    assert not pooled.flagged and pooled.status is Status.THIN
+    # the same class with no other classes in the workspace keeps its flag
+    assert row(scored(here, ref, pooled=None), "make", "in").flagged
+
+
+def test_score_error_of_one_class_only_stays_flagged_in_a_workspace_that_does_not_make_it():
+    """"depend of" six times by four writers in one class (natives: never) is strong enough on its own
+    (first-language transfer is often one class's error), though seven other classes write only "depend on"."""
+    ref = _make_reference()
+    here = [att(w, "depend", "of") for w in ("ana", "ben", "cy", "dee", "ana", "ben")] + \
+           [att("eve", "depend", "on"), att("fay", "depend", "on")]
+    pool = _others(7, [("depend", "on", 8)]).merged(Tally.from_attachments(here), as_class="mine")
+    pooled = row(scored(here, ref, pooled=pool), "depend", "of")
+    assert pooled.flagged and pooled.evidence == "class", (pooled.status, pooled.fdr_q)
+    assert pooled.fdr_q <= 0.05 / 8
