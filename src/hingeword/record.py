@@ -46,7 +46,8 @@ STATUS_GLOSSES = {
     Status.OVER_USED: "the class uses this far more than native writers, who avoid it",
     Status.UNDER_USED: "native writers use this much more often than the class",
     Status.NATIVE_FORM: "the class uses it more than native writers, but natives use it too: not flagged",
-    Status.THIN: "native writers rarely use it, but there are too few uses here to be sure the class differs",
+    Status.THIN: "native writers rarely use it, but there are too few uses here to be sure the class differs (or, "
+                 "with other classes in the workspace, too few to stand out among all of them)",
     Status.ADJUNCT: "the class uses this preposition more than native writers with all words alike: "
                     "a matter of style, not of this word",
     Status.AS_NATIVE: "no clear difference from native writers",
