@@ -149,6 +149,11 @@ def say(msg: str) -> None:
     print(msg, file=sys.stderr, flush=True)
 
 
+def _rows(doc) -> list[dict]:
+    """The rows of a JSON export: ``{"run", "columns", "rows"}`` (or a bare list, from before the run record)."""
+    return doc["rows"] if isinstance(doc, dict) else doc
+
+
 class BenchError(RuntimeError):
     pass
 
@@ -197,7 +202,7 @@ class Tool:
         if concordance is not None:
             args += ["--concordance", str(concordance), "--names", "real"]
         self._run(args, f"export-{workspace.name}-{cls}")
-        return json.loads(out.read_text(encoding="utf-8"))
+        return _rows(json.loads(out.read_text(encoding="utf-8")))
 
 
 def default_tool_cmd() -> list[str]:
@@ -646,7 +651,7 @@ def run_jfleg(args, tool: Tool, data_dir: Path) -> dict | None:
         kpath = exports / sws.name / f"{scls}.concordance.json"
         tool.export(sws, scls, exports / sws.name / f"{scls}.json", concordance=kpath)
         sets = [set() for _ in range(n)]
-        for r in json.loads(kpath.read_text(encoding="utf-8")):
+        for r in _rows(json.loads(kpath.read_text(encoding="utf-8"))):
             m = re.search(r"#(\d+)$", str(r.get("essay_id", "")))
             if not m:
                 raise BenchError(f"concordance row without a CSV row number in its essay id: {r.get('essay_id')!r}")
