@@ -355,6 +355,21 @@ def test_report_teacher_context_answer_keys_for_the_three_slot_cases(data):
     assert answers["emphasize on something"] is None
 
 
+def test_report_overview_lists_at_most_overview_rows_and_says_where_the_rest_are(data, monkeypatch):
+    """A corpus has tens of thousands of patterns, most used once: the overview's table keeps the first
+    OVERVIEW_ROWS in rank order (flagged first) and says that every pattern is in patterns.csv."""
+    import hingeword.report.overview as ov
+
+    monkeypatch.setattr(ov, "OVERVIEW_ROWS", 3)
+    ctx = build_overview_context(data, today=TODAY)
+    assert [r["pattern"] for r in ctx["rows"]] == ["discuss about", "depend of", "listen + object"]
+    assert ctx["rows_more"] == 3 and ctx["summary"]["patterns"] == 6  # the count stays the whole run's
+    from hingeword.report.rendering import render
+
+    html = render("overview.html", ctx)
+    assert "The first 3 of 6 patterns" in html and "3 more patterns" in html and "patterns.csv" in html
+
+
 def test_report_overview_context_rows_flagged_first_with_figures(data):
     ctx = build_overview_context(data, today=TODAY)
     pats = [r["pattern"] for r in ctx["rows"]]

@@ -9,6 +9,7 @@ back to the database or works out "the previous run" on its own.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 from .extract import Attachment
@@ -52,8 +53,12 @@ class RunView:
         """Flagged and not dismissed, in rank order: what the handouts show."""
         return [r for r in self.records if r.teachable]
 
+    @functools.cached_property
+    def _code_of(self) -> dict[str, str]:
+        return dict(self.codes)
+
     def pseudonym(self, writer: str) -> str:
-        return dict(self.codes).get(writer, "S??")
+        return self._code_of.get(writer, "S??")
 
     def writer_label(self, writer: str, names: str) -> str:
         """The writer as a report shows them: a pseudonym, or the id with ``names="real"``."""

@@ -160,6 +160,11 @@ def strength_words(r: PatternRecord, confidence: float) -> str | None:
             f"(at least {fmt_ratio(r.rate_ratio_low)} times, with {confidence:.0%} confidence)")
 
 
+#: Patterns the overview's table lists at most (in rank order: flagged first, then by status and
+#: writers); a corpus has tens of thousands, most used once, and every one is in ``patterns.csv``.
+OVERVIEW_ROWS = 2000
+
+
 def build_overview_context(view: RunView, *, names: str = "pseudonyms", today: str) -> dict:
     """Context of ``overview.html``: every pattern, flagged details, run facts.
 
@@ -239,7 +244,8 @@ def build_overview_context(view: RunView, *, names: str = "pseudonyms", today: s
         "summary": {"patterns": len(used), "not_used": len(records) - len(used), "flagged": len(flagged),
                     "dismissed": len(dismissed), "statuses": [(s, c) for s, c in statuses if c]},
         "status_glosses": glosses,
-        "rows": [_row(r) for r in used],
+        "rows": [_row(r) for r in used[:OVERVIEW_ROWS]],
+        "rows_more": max(0, len(used) - OVERVIEW_ROWS),
         "unused_rows": [_row(r) for r in records if r.learner_count == 0],
         "flagged": flagged, "dismissed": dismissed,
         "skipped": [{"source": label(s.source), "reason": rename(s.reason)} for s in view.skipped],
