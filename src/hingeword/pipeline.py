@@ -206,7 +206,8 @@ def scan(
     loaded: dict = {}
     ingest = read_essays(folder, manifest=manifest, encoding=encoding)
     _require_essays(ingest, folder, class_name, term)
-    reference = ref_mod.load_many(references, workspace)
+    for name in list(references) or list(ref_mod.BUNDLED):  # a wrong name or manifest is said before any work;
+        ref_mod.read_manifest(ref_mod.resolve(name, workspace))  # the counts load while the parser works
     info = model_info(model)  # name and version from the installed package; the pipeline loads only if needed
     nlp = None
     if info is None:  # not found this way: loading it says what is wrong, before the workspace is touched
@@ -218,10 +219,12 @@ def scan(
         say("parse")
         rows, ingest, info = _attachment_rows(ingest, folder, class_name, term, nlp, info, model, ws.cache_dir,
                                               processes or default_processes(), keep_parses, stats, progress,
-                                              meanwhile=lambda: loaded.update(rules=_load_rules(rules_dirs)))
+                                              meanwhile=lambda: loaded.update(
+                                                  rules=_load_rules(rules_dirs),
+                                                  reference=ref_mod.load_many(references, workspace)))
         attachments = [a for e in ingest.essays for a in to_attachments(rows[e.sha256], e.text, e.essay_id, e.writer)]
         del rows  # the attachments hold all of it
-        rules = loaded["rules"]
+        rules, reference = loaded["rules"], loaded["reference"]
         say("score")
         keep = sorted({k.strip().lower() for k in keep_spelling if k.strip()})
         attachments, groups = group_governors(attachments, reference.lemmas, words=rules.words, keep=keep)
