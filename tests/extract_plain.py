@@ -33,7 +33,7 @@ def _multiword_at(doc, i: int) -> tuple[str, ...] | None:
 def _make(gov, first, last, prep: str, relation: str, essay_id: str, writer: str, obj=None) -> Attachment:
     sent = gov.sent
     lo, hi = min(gov.idx, first.idx), max(gov.idx + len(gov.text), last.idx + len(last.text))
-    sentence, sentence_start = sentence_span(sent, lo, hi)
+    sentence, sentence_start = sentence_span(sent.text, sent.start_char, lo, hi)
     return Attachment(
         essay_id=essay_id,
         writer=writer,

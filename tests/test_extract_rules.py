@@ -280,10 +280,8 @@ def test_extract_object_class_of_a_gerund_and_of_a_direct_object():
      "I went there in\nAugust because we were tired of it."),  # a short wrapped line ending in a function word
 ])
 def test_extract_sentence_leaves_out_a_glued_title(text, pattern, expected):
-    from types import SimpleNamespace
-
     from hingeword.extract import sentence_span
 
     lo = text.index(pattern)
-    sentence, start = sentence_span(SimpleNamespace(text=text, start_char=100), 100 + lo, 100 + lo + len(pattern))
+    sentence, start = sentence_span(text, 100, 100 + lo, 100 + lo + len(pattern))
     assert sentence == expected and start == 100 + text.index(expected)

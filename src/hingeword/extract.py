@@ -354,14 +354,10 @@ def _line_breaks(text: str) -> list[tuple[int, int]]:
     return sorted(out)
 
 
-def sentence_span(sent, lo: int, hi: int) -> tuple[str, int]:
-    """The sentence text holding the characters ``lo``..``hi`` of the doc, and its start offset: the
-    parser's sentence (anything with ``text`` and ``start_char``), less a title or paragraph it
-    glued on (:func:`_line_breaks`)."""
-    return _cut_sentence(sent.text, sent.start_char, lo, hi)
-
-
-def _cut_sentence(text: str, start: int, lo: int, hi: int) -> tuple[str, int]:
+def sentence_span(text: str, start: int, lo: int, hi: int) -> tuple[str, int]:
+    """The part of a parser's sentence (``text``, starting at ``start`` in the doc) that holds the
+    doc's characters ``lo``..``hi``, and its start offset: the sentence less a title or paragraph
+    the parser glued on (:func:`_line_breaks`)."""
     if "\n" not in text:
         return text, start
     a, b = lo - start, hi - start
@@ -378,7 +374,7 @@ def _make(gov, first, last, prep: str, relation: str, essay_id: str, writer: str
           obj=None) -> Attachment:
     text, start = sents.of(gov)
     lo, hi = min(gov.idx, first.idx), max(gov.idx + len(gov.text), last.idx + len(last.text))
-    sentence, sentence_start = _cut_sentence(text, start, lo, hi)
+    sentence, sentence_start = sentence_span(text, start, lo, hi)
     return Attachment(
         essay_id=essay_id,
         writer=writer,

@@ -206,8 +206,7 @@ def scan(
     loaded: dict = {}
     ingest = read_essays(folder, manifest=manifest, encoding=encoding)
     _require_essays(ingest, folder, class_name, term)
-    for name in list(references) or list(ref_mod.BUNDLED):  # a wrong name or manifest is said before any work;
-        ref_mod.read_manifest(ref_mod.resolve(name, workspace))  # the counts load while the parser works
+    ref_mod.resolve_many(references, workspace)  # a wrong name or manifest before any work; counts load while parsing
     info = model_info(model)  # name and version from the installed package; the pipeline loads only if needed
     nlp = None
     if info is None:  # not found this way: loading it says what is wrong, before the workspace is touched

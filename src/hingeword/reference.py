@@ -387,10 +387,22 @@ def describe(path: str | Path) -> list[str]:
     return lines
 
 
+def resolve_many(names: Sequence[str], workspace: str | Path | None = None) -> list[Path]:
+    """The reference directories of ``names`` (the bundled default when there are none), each
+    with a readable manifest: a wrong name or manifest is said before any counts are read."""
+    paths = _paths(names, workspace)
+    for path in paths:
+        read_manifest(path)
+    return paths
+
+
+def _paths(names: Sequence[str], workspace: str | Path | None) -> list[Path]:
+    return [resolve(n, workspace) for n in (list(names) or list(BUNDLED))]
+
+
 def load_many(names: Sequence[str], workspace: str | Path | None = None) -> Reference:
     """Load and combine references by adding counts; the manifest lists the parts."""
-    names = list(names) or list(BUNDLED)
-    refs = [load(resolve(n, workspace)) for n in names]
+    refs = [load(path) for path in _paths(names, workspace)]
     if len(refs) == 1:
         return refs[0]
     combined = Reference(manifest={
