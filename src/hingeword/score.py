@@ -319,12 +319,12 @@ def _poisson_low(uses: int) -> float:
     return float(chi2.ppf(1.0 - K_LEVEL, 2 * uses)) / 2.0
 
 
-def _evidence(tally: Tally, key, native_rate: float, ex: _Excluded = _NONE) -> Evidence:
+def _evidence(tally: Tally, key, native_rate: float) -> Evidence:
     a = tally.count(key)
     n1 = tally.governors.get(key[:2], 0)
     return Evidence(a=a, writers=tally.writers(key), top=tally.top_writer_uses(key), n1=n1,
                     gov_writers=len(tally.governor_writers.get(key[:2], ())),
-                    k=_general_factor(tally, key, n1, a, native_rate, ex))
+                    k=_general_factor(tally, key, n1, a, native_rate))
 
 
 def decide_tally(t: Thresholds, tally: Tally, keys: Sequence, c: Sequence[int], n2: Sequence[int],
@@ -332,9 +332,12 @@ def decide_tally(t: Thresholds, tally: Tally, keys: Sequence, c: Sequence[int], 
     """:func:`decide_all` for the patterns ``keys`` of ``tally``, with k re-estimated without the
     patterns found over-used, until the over-used set stops changing (at most ``passes`` rounds)."""
     found: set = set()
+    evidence = [_evidence(tally, key, r) for key, r in zip(keys, native_rates)]
     for _ in range(max(1, passes)):
-        ex = _Excluded.of(tally, found) if found else _NONE
-        evidence = [_evidence(tally, key, r, ex) for key, r in zip(keys, native_rates)]
+        if found:  # only k changes from one round to the next
+            ex = _Excluded.of(tally, found)
+            evidence = [replace(e, k=_general_factor(tally, key, e.n1, e.a, r, ex))
+                        for e, key, r in zip(evidence, keys, native_rates)]
         decisions = decide_all(t, evidence, c, n2, native_rates)
         now = {key for key, d in zip(keys, decisions) if d.status is Status.OVER_USED}
         if now <= found:
