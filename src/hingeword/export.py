@@ -47,8 +47,8 @@ def records_frame(records: Sequence[PatternRecord]) -> pd.DataFrame:
     return pd.DataFrame([export_row(r) for r in records], columns=list(EXPORT_COLUMNS))
 
 
-def _bool_word(v) -> str:
-    return "true" if v is not pd.NA and v is not None and v == True else "false"  # noqa: E712
+def _is_true(v) -> bool:
+    return v is not pd.NA and v is not None and v == True  # noqa: E712
 
 
 def one_line(text) -> str:
@@ -76,8 +76,9 @@ def write_table(df: pd.DataFrame, path: str | Path, run: Mapping | None = None,
         raise HingewordError(f"cannot export to '{path.name}': use a file ending in .csv, .xlsx or .json")
     out = df.copy()
     booleans = [c for c in _BOOLEAN_COLUMNS if c in out.columns]
-    for col in booleans:
-        out[col] = out[col].map(lambda v: v is not pd.NA and v is not None and v == True)  # noqa: E712
+    for col in booleans:  # JSON true/false; the words "true"/"false" in CSV and XLSX cells
+        truth = out[col].map(_is_true)
+        out[col] = truth if suffix == ".json" else truth.map({True: "true", False: "false"})
     text_columns = []
     for col in out.columns:
         dtype = out[col].dtype
@@ -100,14 +101,10 @@ def write_table(df: pd.DataFrame, path: str | Path, run: Mapping | None = None,
     glosses = {c: glosses[c] for c in out.columns if c in glosses} if glosses else {}
     with atomic_path(path) as tmp:
         if suffix == ".csv":
-            for col in booleans:
-                out[col] = out[col].map(_bool_word)
             for col in text_columns:
                 out[col] = out[col].map(neutralise_cell)
             out.to_csv(tmp, index=False, float_format="%.6g", lineterminator="\n")
         elif suffix == ".xlsx":
-            for col in booleans:
-                out[col] = out[col].map(_bool_word)
             sheet = "patterns" if "governor_pos" in out.columns and "learner_count" in out.columns else "concordance"
             _write_xlsx(out, tmp, sheet, run, glosses)
         else:
