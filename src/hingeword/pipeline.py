@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import datetime as _dt
 import logging
+from collections import Counter
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -90,6 +91,8 @@ def within_parser_limit(ingest: IngestResult, max_length: int) -> IngestResult:
                    duplicates=[g for g in (tuple(i for i in grp if i not in ids) for grp in ingest.duplicates)
                                if len(g) > 1],
                    near_duplicates=[n for n in ingest.near_duplicates if n.first not in ids and n.second not in ids])
+
+
 def pooled_tally(ws: Workspace, class_name: str, term: str, scope: Pool, tally: Tally) -> Tally | None:
     """This run's counts plus those of the workspace's other runs in ``scope`` (``None`` when there are none)."""
     if scope is Pool.NONE:
@@ -134,9 +137,7 @@ def _attachment_rows(ingest: IngestResult, folder, class_name: str, term: str, n
         ingest = within_parser_limit(ingest, nlp.max_length)
         _require_essays(ingest, folder, class_name, term)
         texts = {e.sha256: e.text for e in ingest.essays}
-    essays_per_text: dict[str, int] = {}
-    for e in ingest.essays:
-        essays_per_text[e.sha256] = essays_per_text.get(e.sha256, 0) + 1
+    essays_per_text = Counter(e.sha256 for e in ingest.essays)
     total = len(ingest.essays)
     done = sum(essays_per_text[k] for k in rows)
     stats.from_cache += done
@@ -244,7 +245,7 @@ def scan(
             "model_version": info.version,
             "extractor_version": EXTRACTOR_VERSION,
             "source": str(Path(folder)),
-            "words": sum(e.word_count for e in ingest.essays),
+            "words": words,
             "settings": run_settings,
             "reference": reference.manifest,
         }
