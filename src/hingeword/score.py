@@ -412,7 +412,7 @@ def decide_all(t: Thresholds, evidence: Sequence[Evidence], c: Sequence[int], n2
     screened = [_screen(t, e, int(ci), int(ni), float(r), float(lo))
                 for e, ci, ni, r, lo in zip(evidence, cc, nn, native_rates, low)]
     statuses = [s for s, _ in screened]
-    p = np.array([p[i] if s is None or s not in (Status.UNDER_USED,) else sp for i, (s, sp) in enumerate(screened)])
+    p = np.array([sp if s is Status.UNDER_USED else p[i] for i, (s, sp) in enumerate(screened)])
     idx = np.array([i for i, s in enumerate(statuses) if s is None], int)
     if len(idx):
         alpha = 1.0 - t.confidence
