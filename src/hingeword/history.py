@@ -331,8 +331,9 @@ class Workspace:
                 self.conn.execute("PRAGMA journal_mode = WAL")
         except BaseException as exc:
             self.conn.close()
-            if isinstance(exc, sqlite3.Error) and _explain(exc, self.db_path) is not None:
-                raise _explain(exc, self.db_path) from exc
+            explained = _explain(exc, self.db_path) if isinstance(exc, sqlite3.Error) else None
+            if explained is not None:
+                raise explained from exc
             raise
 
     @property
