@@ -154,6 +154,15 @@ def _read_tsv_gz(path: Path, expected_sha: str | None) -> Iterator[list[str]]:
         raise ReferenceDataError(f"reference file {path} is corrupt or truncated ({exc}); rebuild it") from None
 
 
+def _read_counts(path: Path, expected_sha: str | None, width: int, into: Counter) -> None:
+    """Add the rows of one data file (key columns, then a count) to ``into``; a row of another
+    width, or a bad count, is a one-line error naming the file."""
+    for row in _read_tsv_gz(path, expected_sha):
+        if len(row) != width:
+            raise ReferenceDataError(f"reference file {path} has a malformed row: {row!r}")
+        into[tuple(row[:-1])] += _count(row[-1], path, row)
+
+
 def _count(text: str, path: Path, row: list[str]) -> int:
     """A row's count: a non-negative integer up to :data:`MAX_COUNT`, else a one-line error."""
     try:
@@ -299,24 +308,11 @@ def _load(path: Path) -> Reference:
         raise ReferenceDataError(f"reference manifest {path / 'manifest.json'} has no list of files with checksums; "
                                  "rebuild it")
     ref = Reference(manifest=manifest, path=str(path))
-    patterns_path, lemmas_path = path / "patterns.tsv.gz", path / "lemmas.tsv.gz"
-    for row in _read_tsv_gz(patterns_path, files.get("patterns.tsv.gz")):
-        if len(row) != 4:
-            raise ReferenceDataError(f"reference file {patterns_path} has a malformed row: {row!r}")
-        g, p, prep, n = row
-        ref.patterns[(g, p, prep)] += _count(n, patterns_path, row)
-    for row in _read_tsv_gz(lemmas_path, files.get("lemmas.tsv.gz")):
-        if len(row) != 3:
-            raise ReferenceDataError(f"reference file {lemmas_path} has a malformed row: {row!r}")
-        lem, p, n = row
-        ref.lemmas[(lem, p)] += _count(n, lemmas_path, row)
-    if "objects.tsv.gz" in files:  # format 2
-        objects_path = path / "objects.tsv.gz"
-        for row in _read_tsv_gz(objects_path, files.get("objects.tsv.gz")):
-            if len(row) != 5:
-                raise ReferenceDataError(f"reference file {objects_path} has a malformed row: {row!r}")
-            g, p, prep, cls, n = row
-            ref.objects[(g, p, prep, cls)] += _count(n, objects_path, row)
+    for name, width, into in (("patterns.tsv.gz", 4, ref.patterns), ("lemmas.tsv.gz", 3, ref.lemmas),
+                              ("objects.tsv.gz", 5, ref.objects)):
+        if name == "objects.tsv.gz" and name not in files:  # format 1: no counts by object class
+            continue
+        _read_counts(path / name, files.get(name), width, into)
     return ref
 
 
